@@ -1,0 +1,296 @@
+/**
+ * The configuration file, as one strict zod schema. Every type the rest of Plumbline
+ * uses for configuration is inferred from here (`z.infer`), so the file format and the
+ * code cannot drift apart. Defaults live here too, in one place, and are documented in
+ * README.md ("Configuration reference") and in deploy/plumbline.example.yaml.
+ */
+import { z } from 'zod';
+
+/**
+ * A PostgreSQL identifier as written in the config: letters, digits and underscores,
+ * not starting with a digit, at most 63 bytes (NAMEDATALEN - 1). Identifiers are also
+ * checked against the catalogue at start and always quoted; this rule keeps config
+ * files free of quoting puzzles and of anything that could smuggle SQL.
+ */
+export const IDENTIFIER_PATTERN = /^[A-Za-z_][A-Za-z0-9_]{0,62}$/;
+const identifier = z
+  .string()
+  .regex(IDENTIFIER_PATTERN, 'must be a plain SQL identifier (letters, digits, _; not starting with a digit; at most 63 characters)');
+
+/** `table` or `schema.table`. */
+const qualifiedName = z
+  .string()
+  .regex(
+    /^([A-Za-z_][A-Za-z0-9_]{0,62}\.)?[A-Za-z_][A-Za-z0-9_]{0,62}$/,
+    'must be "table" or "schema.table" with plain SQL identifiers',
+  );
+
+const isoDate = z
+  .string()
+  .regex(/^\d{4}-\d{2}-\d{2}$/, 'must be a date written YYYY-MM-DD')
+  .refine((s) => !Number.isNaN(Date.parse(`${s}T00:00:00Z`)) && new Date(`${s}T00:00:00Z`).toISOString().startsWith(s), 'is not a real calendar date');
+
+const positiveInt = z.number().int().positive();
+const ratio = z.number().min(0).max(1);
+
+/** Status rises with the value: `value >= warn` is warn, `value >= critical` is critical. */
+export const AboveThreshold = z
+  .strictObject({ warn: z.number().nonnegative(), critical: z.number().nonnegative() })
+  .refine((t) => t.warn <= t.critical, { message: 'warn must not exceed critical' });
+
+/** Status when a ratio to the baseline leaves a band around 1. */
+export const BandThreshold = z
+  .strictObject({
+    warnBelow: z.number().nonnegative(),
+    criticalBelow: z.number().nonnegative(),
+    warnAbove: z.number().positive(),
+    criticalAbove: z.number().positive(),
+  })
+  .refine((t) => t.criticalBelow <= t.warnBelow && t.warnBelow <= 1 && 1 <= t.warnAbove && t.warnAbove <= t.criticalAbove, {
+    message: 'expected criticalBelow <= warnBelow <= 1 <= warnAbove <= criticalAbove',
+  });
+
+export type AboveThreshold = z.infer<typeof AboveThreshold>;
+export type BandThreshold = z.infer<typeof BandThreshold>;
+
+/**
+ * Defaults for every check. Drift thresholds: PSI 0.1 / 0.25 is the rule of thumb of
+ * credit scoring (common practice, Siddiqi 2006); KS D 0.1 / 0.2 is our own choice of
+ * effect size, gated by a Benjamini-Hochberg adjusted p-value below `ks.alpha`.
+ * Ratio checks compare the current ratio with the baseline's: the thresholds apply to
+ * the increase (current - baseline), so a feature that is always 30 % null is quiet.
+ */
+export const DEFAULT_THRESHOLDS = {
+  psi: { warn: 0.1, critical: 0.25 },
+  ks: { warn: 0.1, critical: 0.2 },
+  null_ratio: { warn: 0.01, critical: 0.05 },
+  nonfinite_ratio: { warn: 0.0001, critical: 0.001 },
+  type_error_ratio: { warn: 0.0001, critical: 0.001 },
+  out_of_range_ratio: { warn: 0.001, critical: 0.01 },
+  distinct_ratio_drop: { warn: 0.5, critical: 0.9 },
+  new_category_ratio: { warn: 0.01, critical: 0.05 },
+  rule_violation_ratio: { warn: 0.01, critical: 0.05 },
+  flat_list_ratio: { warn: 0.05, critical: 0.2 },
+  list_size_psi: { warn: 0.1, critical: 0.25 },
+  duplicate_item_ratio: { warn: 0.001, critical: 0.01 },
+  position_gap_ratio: { warn: 0.001, critical: 0.01 },
+  null_list_id_ratio: { warn: 0.0001, critical: 0.001 },
+  singleton_list_ratio: { warn: 0.05, critical: 0.2 },
+  no_positive_list_ratio: { warn: 0.05, critical: 0.15 },
+  row_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
+  list_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
+  label_positive_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 2 },
+} as const;
+
+const ThresholdsSchema = z
+  .strictObject({
+    psi: AboveThreshold.default(DEFAULT_THRESHOLDS.psi),
+    ks: AboveThreshold.default(DEFAULT_THRESHOLDS.ks),
+    /** Benjamini-Hochberg adjusted p-value a KS finding must fall below to count at all. */
+    ksAlpha: z.number().gt(0).lt(1).default(0.01),
+    /**
+     * PSI must also exceed this quantile of its no-drift distribution
+     * ((1/n + 1/m) * chi-square with B-1 degrees of freedom), so small samples do not page.
+     */
+    psiNoiseQuantile: z.number().gt(0).lt(1).default(0.999),
+    null_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_ratio),
+    nonfinite_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.nonfinite_ratio),
+    type_error_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.type_error_ratio),
+    out_of_range_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.out_of_range_ratio),
+    distinct_ratio_drop: AboveThreshold.default(DEFAULT_THRESHOLDS.distinct_ratio_drop),
+    new_category_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.new_category_ratio),
+    rule_violation_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.rule_violation_ratio),
+    flat_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.flat_list_ratio),
+    list_size_psi: AboveThreshold.default(DEFAULT_THRESHOLDS.list_size_psi),
+    duplicate_item_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.duplicate_item_ratio),
+    position_gap_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.position_gap_ratio),
+    null_list_id_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_list_id_ratio),
+    singleton_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.singleton_list_ratio),
+    no_positive_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.no_positive_list_ratio),
+    row_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.row_count_ratio),
+    list_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.list_count_ratio),
+    label_positive_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.label_positive_ratio),
+  })
+  .default({} as never);
+
+export type Thresholds = z.infer<typeof ThresholdsSchema>;
+
+/** Per-feature overrides: any subset of the feature-level thresholds. */
+const FeatureThresholdOverrides = z
+  .strictObject({
+    psi: AboveThreshold.optional(),
+    ks: AboveThreshold.optional(),
+    null_ratio: AboveThreshold.optional(),
+    nonfinite_ratio: AboveThreshold.optional(),
+    type_error_ratio: AboveThreshold.optional(),
+    out_of_range_ratio: AboveThreshold.optional(),
+    distinct_ratio_drop: AboveThreshold.optional(),
+    new_category_ratio: AboveThreshold.optional(),
+    rule_violation_ratio: AboveThreshold.optional(),
+    flat_list_ratio: AboveThreshold.optional(),
+  })
+  .optional();
+
+export const WITHIN_LIST_RULES = ['minmax', 'zscore', 'rank', 'sum_to_one'] as const;
+export type WithinListRule = (typeof WITHIN_LIST_RULES)[number];
+
+export const FeatureSchema = z
+  .strictObject({
+    /** The name shown in reports and used as the `feature` label. */
+    name: z.string().regex(/^[A-Za-z_][A-Za-z0-9_.-]{0,62}$/, 'must be letters, digits, _ . - (at most 63), starting with a letter or _'),
+    /** Column of the source table (wide layout). Defaults to `name` when neither column nor key is given. */
+    column: identifier.optional(),
+    /** Key inside the jsonb column `source.featuresColumn` (jsonb layout). */
+    key: z.string().min(1).max(200).optional(),
+    kind: z.enum(['numeric', 'binary', 'categorical']).default('numeric'),
+    /** `item`: describes the item; `list`: describes the whole list (constant inside a list by design). */
+    scope: z.enum(['item', 'list']).default('item'),
+    range: z
+      .strictObject({ min: z.number().optional(), max: z.number().optional() })
+      .refine((r) => r.min === undefined || r.max === undefined || r.min <= r.max, { message: 'min must not exceed max' })
+      .optional(),
+    nullable: z.boolean().default(true),
+    withinList: z
+      .strictObject({
+        rule: z.enum(WITHIN_LIST_RULES),
+        /** Absolute tolerance on the rule's quantities (e.g. |min - 0| <= tolerance for minmax). */
+        tolerance: z.number().nonnegative().default(1e-6),
+      })
+      .optional(),
+    thresholds: FeatureThresholdOverrides,
+  })
+  .superRefine((f, ctx) => {
+    if (f.column === undefined && f.key === undefined && !IDENTIFIER_PATTERN.test(f.name)) {
+      ctx.addIssue({ code: 'custom', message: 'this name is not a plain SQL identifier: give the column (or key) explicitly', path: ['column'] });
+    }
+    if (f.column !== undefined && f.key !== undefined) {
+      ctx.addIssue({ code: 'custom', message: 'give either column or key, not both', path: ['key'] });
+    }
+    if (f.scope === 'list' && f.withinList !== undefined) {
+      ctx.addIssue({ code: 'custom', message: 'a list-level feature is constant inside a list; a within-list rule cannot apply', path: ['withinList'] });
+    }
+    if (f.kind !== 'numeric' && f.withinList !== undefined) {
+      ctx.addIssue({ code: 'custom', message: 'within-list rules apply to numeric features only', path: ['withinList'] });
+    }
+    if (f.kind !== 'numeric' && f.range !== undefined) {
+      ctx.addIssue({ code: 'custom', message: 'a valid range applies to numeric features only', path: ['range'] });
+    }
+  });
+
+export type FeatureConfig = z.infer<typeof FeatureSchema>;
+
+const BaselineWindow = z.discriminatedUnion('type', [
+  z.strictObject({ type: z.literal('trailing'), days: positiveInt.max(366) }),
+  z.strictObject({ type: z.literal('same_weekday'), weeks: positiveInt.max(52) }),
+  z.strictObject({ type: z.literal('fixed'), from: isoDate, to: isoDate }).refine((w) => w.from <= w.to, { message: 'from must not be after to', path: ['to'] }),
+]);
+export type BaselineWindow = z.infer<typeof BaselineWindow>;
+
+export const ConfigSchema = z
+  .strictObject({
+    source: z.strictObject({
+      /** Table or view holding one row per ranked item. */
+      table: qualifiedName,
+      columns: z
+        .strictObject({
+          snapshotDate: identifier.default('snapshot_date'),
+          listId: identifier.default('list_id'),
+          itemId: identifier.default('item_id'),
+          position: identifier.default('position'),
+          label: identifier.optional(),
+          score: identifier.optional(),
+        })
+        .default({} as never),
+      /** A jsonb column holding features as keys; features then name a `key`. */
+      featuresColumn: identifier.optional(),
+      /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
+      engine: z.enum(['stream', 'pushdown']).default('stream'),
+      /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
+      maxRowsPerDay: positiveInt.default(5_000_000),
+      statementTimeoutSeconds: positiveInt.default(900),
+    }),
+    features: z.array(FeatureSchema).min(1, 'declare at least one feature'),
+    baseline: z
+      .strictObject({
+        window: BaselineWindow.default({ type: 'trailing', days: 28 }),
+        /** Values kept per feature (a deterministic sample) for KS and bin edges. */
+        sampleSize: positiveInt.min(1000).max(5_000_000).default(200_000),
+        /** Number of quantile bins for PSI (point masses and nulls get bins of their own). */
+        bins: positiveInt.min(2).max(100).default(10),
+        /** Fewest baseline days with data before drift checks run. */
+        minDays: positiveInt.default(1),
+      })
+      .default({} as never),
+    thresholds: ThresholdsSchema,
+    alerting: z
+      .strictObject({
+        /** Consecutive runs at or above a level before a finding alerts, by kind of check. */
+        consecutiveRuns: z
+          .strictObject({
+            drift: positiveInt.default(2),
+            quality: positiveInt.default(1),
+            within_list: positiveInt.default(1),
+            dataset: positiveInt.default(1),
+          })
+          .default({} as never),
+        /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */
+        alertmanagerUrl: z.url().optional(),
+      })
+      .default({} as never),
+    schedule: z
+      .strictObject({
+        /** node-cron expression (5 or 6 fields). Default 06:30 every day. */
+        cron: z.string().min(9).default('30 6 * * *'),
+        /** IANA time zone; UTC avoids daylight-saving gaps in which cron skips a run. */
+        timezone: z.string().default('UTC'),
+        /** The run at day D evaluates the snapshot of D - lagDays. */
+        lagDays: z.number().int().min(0).max(30).default(1),
+        /** After an outage, run at most this many missed days, oldest first. */
+        catchUpMaxDays: z.number().int().min(0).max(366).default(7),
+        readiness: z
+          .strictObject({
+            /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
+            minRowFraction: ratio.default(0.5),
+            /** Optional marker table: the day is ready once a row with that date exists. */
+            markerTable: qualifiedName.optional(),
+            markerDateColumn: identifier.default('snapshot_date'),
+            retryEverySeconds: positiveInt.default(300),
+            /** After this long past the scheduled time, a missing day becomes a critical finding. */
+            deadlineMinutes: positiveInt.default(360),
+          })
+          .default({} as never),
+      })
+      .default({} as never),
+    http: z
+      .strictObject({
+        host: z.string().default('127.0.0.1'),
+        port: z.number().int().min(0).max(65535).default(9467),
+      })
+      .default({} as never),
+    store: z
+      .strictObject({
+        schema: identifier.default('plumbline'),
+      })
+      .default({} as never),
+  })
+  .superRefine((c, ctx) => {
+    const seen = new Map<string, number>();
+    c.features.forEach((f, i) => {
+      const prev = seen.get(f.name);
+      if (prev !== undefined) ctx.addIssue({ code: 'custom', message: `duplicate feature name (also features[${prev}])`, path: ['features', i, 'name'] });
+      seen.set(f.name, i);
+      if (f.key !== undefined && c.source.featuresColumn === undefined) {
+        ctx.addIssue({ code: 'custom', message: 'a key needs source.featuresColumn (the jsonb column)', path: ['features', i, 'key'] });
+      }
+    });
+  });
+
+export type Config = z.infer<typeof ConfigSchema>;
+/** What the YAML file may say before defaults are applied. */
+export type ConfigInput = z.input<typeof ConfigSchema>;
+
+/** Where a feature's values come from, after defaults: a column or a jsonb key. */
+export function featureSource(f: FeatureConfig, featuresColumn: string | undefined): { column: string } | { jsonbColumn: string; key: string } {
+  if (f.key !== undefined && featuresColumn !== undefined) return { jsonbColumn: featuresColumn, key: f.key };
+  return { column: f.column ?? f.name };
+}

@@ -1,0 +1,163 @@
+/**
+ * The JSON report: a public, versioned contract (`run --format json`, `/api/v1/reports/...`,
+ * and the `report` column of the store). This file is its one definition. Adding an
+ * optional field is a minor change; renaming or removing one bumps REPORT_SCHEMA_VERSION.
+ *
+ * Privacy: a report holds aggregates only. No list id, item id or query text appears in
+ * a finding or its evidence.
+ */
+import type { WithinListRule } from '../config/schema.ts';
+
+export const REPORT_SCHEMA_VERSION = 1 as const;
+
+export type Status = 'ok' | 'warn' | 'critical';
+export const STATUS_LEVEL: Record<Status, 0 | 1 | 2> = { ok: 0, warn: 1, critical: 2 };
+export const STATUS_OF_LEVEL: readonly Status[] = ['ok', 'warn', 'critical'];
+
+export function worstStatus(statuses: Iterable<Status>): Status {
+  let level = 0;
+  for (const s of statuses) level = Math.max(level, STATUS_LEVEL[s]);
+  return STATUS_OF_LEVEL[level]!;
+}
+
+/** Checks on one feature. */
+export const FEATURE_CHECKS = [
+  'psi',
+  'ks',
+  'null_ratio',
+  'nonfinite_ratio',
+  'type_error_ratio',
+  'out_of_range_ratio',
+  'constant',
+  'distinct_ratio_drop',
+  'new_category_ratio',
+  'rule_violation_ratio',
+  'flat_list_ratio',
+] as const;
+export type FeatureCheck = (typeof FEATURE_CHECKS)[number];
+
+/** Checks on the whole day (feature is null). */
+export const DATASET_CHECKS = [
+  'snapshot_missing',
+  'row_count_ratio',
+  'list_count_ratio',
+  'list_size_psi',
+  'duplicate_item_ratio',
+  'position_gap_ratio',
+  'null_list_id_ratio',
+  'singleton_list_ratio',
+  'label_positive_ratio',
+  'no_positive_list_ratio',
+] as const;
+export type DatasetCheck = (typeof DATASET_CHECKS)[number];
+
+export type CheckName = FeatureCheck | DatasetCheck;
+
+/** Which alerting delay (config `alerting.consecutiveRuns`) a check uses. */
+export type CheckKind = 'drift' | 'quality' | 'within_list' | 'dataset';
+export const CHECK_KIND: Record<CheckName, CheckKind> = {
+  psi: 'drift',
+  ks: 'drift',
+  null_ratio: 'quality',
+  nonfinite_ratio: 'quality',
+  type_error_ratio: 'quality',
+  out_of_range_ratio: 'quality',
+  constant: 'quality',
+  distinct_ratio_drop: 'quality',
+  new_category_ratio: 'drift',
+  rule_violation_ratio: 'within_list',
+  flat_list_ratio: 'within_list',
+  snapshot_missing: 'dataset',
+  row_count_ratio: 'dataset',
+  list_count_ratio: 'dataset',
+  list_size_psi: 'dataset',
+  duplicate_item_ratio: 'dataset',
+  position_gap_ratio: 'dataset',
+  null_list_id_ratio: 'dataset',
+  singleton_list_ratio: 'dataset',
+  label_positive_ratio: 'dataset',
+  no_positive_list_ratio: 'dataset',
+};
+
+/** Thresholds as they were applied to a finding. */
+export type AppliedThresholds =
+  | { type: 'above'; warn: number; critical: number }
+  | { type: 'band'; warnBelow: number; criticalBelow: number; warnAbove: number; criticalAbove: number }
+  | { type: 'flag' };
+
+/** One bin of a baseline-vs-current comparison, kept as evidence. */
+export interface BinEvidence {
+  /** Human-readable bin, e.g. "(0.25, 0.5]", "[0, 0]", "null", "category 'shoes'". */
+  bin: string;
+  baselineShare: number;
+  currentShare: number;
+  /** This bin's term of the PSI sum. */
+  contribution: number;
+}
+
+export interface Finding {
+  /** Feature name from the config, or null for a check on the whole day. */
+  feature: string | null;
+  check: CheckName;
+  /** Within-list rule, for rule_violation_ratio. */
+  rule: WithinListRule | null;
+  /** The statistic (PSI, D, a ratio, 1/0 for flags). */
+  value: number;
+  /** The quantity the thresholds were applied to, when it differs from value (e.g. increase over baseline). */
+  score: number;
+  status: Status;
+  thresholds: AppliedThresholds;
+  /** One line for people, e.g. "PSI 0.31 (critical >= 0.25); 3 bins moved most". */
+  summary: string;
+  /** Everything an engineer needs to judge the finding; aggregates only. */
+  evidence: {
+    baseline?: number | null;
+    current?: number | null;
+    n?: number;
+    m?: number;
+    pValue?: number | null;
+    adjustedPValue?: number | null;
+    noiseFloor?: number | null;
+    bins?: BinEvidence[];
+    [key: string]: unknown;
+  };
+  /** Alert state after this run (consecutive-run hysteresis). */
+  alert: {
+    consecutiveRuns: number;
+    alerting: boolean;
+    /** Level that is alerting, or null. */
+    level: Exclude<Status, 'ok'> | null;
+    since: string | null;
+  };
+}
+
+export interface Report {
+  schemaVersion: typeof REPORT_SCHEMA_VERSION;
+  runDate: string;
+  status: Status;
+  engine: 'stream' | 'pushdown';
+  startedAt: string;
+  finishedAt: string;
+  configFingerprint: string;
+  baseline: {
+    window: { type: string; from: string; to: string };
+    /** Days in the window that had rows. */
+    days: string[];
+    rows: number;
+    lists: number;
+    meanRowsPerDay: number;
+    meanListsPerDay: number;
+    /** Values kept per feature for KS and bin edges. */
+    sampleSize: number;
+    fingerprint: string;
+  };
+  current: {
+    rows: number;
+    lists: number;
+    /** Rows evaluated after whole-list sampling (equals rows when not sampled). */
+    evaluatedRows: number;
+    evaluatedLists: number;
+    sampled: boolean;
+  };
+  findings: Finding[];
+}
