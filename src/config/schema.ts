@@ -4,6 +4,7 @@
  * code cannot drift apart. Defaults live here too, in one place, and are documented in
  * README.md ("Configuration reference") and in deploy/plumbline.example.yaml.
  */
+import { validate as isValidCron } from 'node-cron';
 import { z } from 'zod';
 
 /**
@@ -31,6 +32,15 @@ const isoDate = z
   .refine((s) => !Number.isNaN(Date.parse(`${s}T00:00:00Z`)) && new Date(`${s}T00:00:00Z`).toISOString().startsWith(s), 'is not a real calendar date');
 
 const positiveInt = z.number().int().positive();
+
+function isTimeZone(tz: string): boolean {
+  try {
+    new Intl.DateTimeFormat('en-US', { timeZone: tz });
+    return true;
+  } catch {
+    return false;
+  }
+}
 const ratio = z.number().min(0).max(1);
 
 /** Status rises with the value: `value >= warn` is warn, `value >= critical` is critical. */
@@ -141,7 +151,10 @@ export const FeatureSchema = z
     /** Column of the source table (wide layout). Defaults to `name` when neither column nor key is given. */
     column: identifier.optional(),
     /** Key inside the jsonb column `source.featuresColumn` (jsonb layout). */
-    key: z.string().min(1).max(200).optional(),
+    key: z
+      .string()
+      .regex(/^[A-Za-z0-9_.:\- ]{1,200}$/, 'must be letters, digits, space, _ . : - (at most 200 characters)')
+      .optional(),
     kind: z.enum(['numeric', 'binary', 'categorical']).default('numeric'),
     /** `item`: describes the item; `list`: describes the whole list (constant inside a list by design). */
     scope: z.enum(['item', 'list']).default('item'),
@@ -240,9 +253,9 @@ export const ConfigSchema = z
     schedule: z
       .strictObject({
         /** node-cron expression (5 or 6 fields). Default 06:30 every day. */
-        cron: z.string().min(9).default('30 6 * * *'),
+        cron: z.string().refine((c) => isValidCron(c), 'is not a valid cron expression (5 or 6 fields)').default('30 6 * * *'),
         /** IANA time zone; UTC avoids daylight-saving gaps in which cron skips a run. */
-        timezone: z.string().default('UTC'),
+        timezone: z.string().refine(isTimeZone, 'is not an IANA time zone (e.g. UTC, Europe/Berlin)').default('UTC'),
         /** The run at day D evaluates the snapshot of D - lagDays. */
         lagDays: z.number().int().min(0).max(30).default(1),
         /** After an outage, run at most this many missed days, oldest first. */

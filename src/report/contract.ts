@@ -123,7 +123,10 @@ export interface Finding {
   };
   /** Alert state after this run (consecutive-run hysteresis). */
   alert: {
+    /** Consecutive runs, ending with this one, at warn or worse. */
     consecutiveRuns: number;
+    /** Consecutive runs, ending with this one, at critical. */
+    consecutiveCritical: number;
     alerting: boolean;
     /** Level that is alerting, or null. */
     level: Exclude<Status, 'ok'> | null;

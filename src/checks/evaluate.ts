@@ -1,0 +1,407 @@
+/**
+ * Statistics -> findings. Pure: a baseline profile and a day profile in, findings out
+ * (without alert state; see alert-state.ts). Drift status is decided on effect size (PSI,
+ * KS D); PSI must also clear its sample-size-aware noise floor and KS its
+ * Benjamini-Hochberg adjusted p-value, so a day of millions of rows does not page on
+ * differences nobody cares about.
+ */
+import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
+import { thinSorted, type BaselineProfile, type CategoricalProfile, type DatasetCounts, type DayProfile, type NumericProfile, type WithinListCounts } from '../profile/index.ts';
+import type { BinEvidence, CheckName, Finding, Status } from '../report/contract.ts';
+import {
+  benjaminiHochberg,
+  binLabels,
+  categoryPsi,
+  distinctCountSorted,
+  ks2Sorted,
+  ksPValue,
+  psi,
+  psiNoiseFloor,
+  type PsiResult,
+} from '../stats/index.ts';
+import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
+
+type FindingDraft = Omit<Finding, 'alert'>;
+
+/** How many moved bins a finding keeps as evidence. */
+const TOP_BINS = 5;
+
+function ratio(numerator: number, denominator: number): number {
+  return denominator > 0 ? numerator / denominator : 0;
+}
+
+function threshold(config: Config, feature: FeatureConfig | null, check: keyof Config['thresholds'] & keyof NonNullable<FeatureConfig['thresholds']>): AboveThreshold {
+  return (feature?.thresholds?.[check] ?? config.thresholds[check]) as AboveThreshold;
+}
+
+function topBins(result: PsiResult, labels: readonly string[]): BinEvidence[] {
+  return result.contributions
+    .map((contribution, i) => ({ bin: labels[i] ?? `bin ${i}`, baselineShare: result.baselineShares[i]!, currentShare: result.currentShares[i]!, contribution }))
+    .filter((b) => b.baselineShare > 0 || b.currentShare > 0)
+    .sort((a, b) => Math.abs(b.contribution) - Math.abs(a.contribution))
+    .slice(0, TOP_BINS);
+}
+
+/** A finding on the increase of a ratio over its baseline value. */
+function increaseFinding(
+  feature: string | null,
+  check: CheckName,
+  label: string,
+  current: number,
+  baseline: number | null,
+  t: AboveThreshold,
+  evidence: Record<string, unknown> = {},
+): FindingDraft {
+  const score = Math.max(0, current - (baseline ?? 0));
+  const status = statusAbove(score, t);
+  return {
+    feature,
+    check,
+    rule: null,
+    value: current,
+    score,
+    status,
+    thresholds: applied(t),
+    summary: `${label} ${pct(current)} (baseline ${pct(baseline)}; ${status} at +${pct(t.warn)} / +${pct(t.critical)})`,
+    evidence: { baseline, current, ...evidence },
+  };
+}
+
+interface Context {
+  config: Config;
+  baseline: BaselineProfile;
+  current: DayProfile;
+  hasBaseline: boolean;
+}
+
+function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | undefined, cur: NumericProfile, ksQueue: { draft: FindingDraft; p: number }[]): FindingDraft[] {
+  const out: FindingDraft[] = [];
+  const { config } = ctx;
+  const q = cur.quality;
+  const bq = base?.quality;
+  const rows = q.rows;
+
+  // Data quality: these need no baseline to be meaningful.
+  const nullRatio = ratio(q.nulls, rows);
+  const baseNull = bq === undefined || !f.nullable ? 0 : ratio(bq.nulls, bq.rows);
+  out.push(increaseFinding(f.name, 'null_ratio', 'null', nullRatio, baseNull, threshold(config, f, 'null_ratio'), { nulls: q.nulls, rows, nullable: f.nullable }));
+  const nonfinite = q.nan + q.posInf + q.negInf;
+  out.push(
+    increaseFinding(f.name, 'nonfinite_ratio', 'NaN/Infinity', ratio(nonfinite, rows), bq === undefined ? 0 : ratio(bq.nan + bq.posInf + bq.negInf, bq.rows), threshold(config, f, 'nonfinite_ratio'), {
+      nan: q.nan,
+      posInf: q.posInf,
+      negInf: q.negInf,
+      rows,
+    }),
+  );
+  if (f.key !== undefined) {
+    out.push(increaseFinding(f.name, 'type_error_ratio', 'non-numeric values', ratio(q.typeErrors, rows), bq === undefined ? 0 : ratio(bq.typeErrors, bq.rows), threshold(config, f, 'type_error_ratio'), { typeErrors: q.typeErrors, rows }));
+  }
+  if (f.range !== undefined) {
+    out.push(
+      increaseFinding(f.name, 'out_of_range_ratio', 'out of range', ratio(q.outOfRange, q.finite), bq === undefined ? 0 : ratio(bq.outOfRange, bq.finite), threshold(config, f, 'out_of_range_ratio'), {
+        outOfRange: q.outOfRange,
+        finite: q.finite,
+        range: f.range,
+        min: cur.sortedSample.length > 0 ? cur.sortedSample[0] : null,
+        max: cur.sortedSample.length > 0 ? cur.sortedSample[cur.sortedSample.length - 1] : null,
+      }),
+    );
+  }
+
+  if (base !== undefined && ctx.hasBaseline && base.sortedSample.length > 0) {
+    // A feature stuck at one value, where the baseline varied.
+    const stuck = cur.distinct === 1 && cur.sortedSample.length > 1 && base.distinct > 1;
+    out.push({
+      feature: f.name,
+      check: 'constant',
+      rule: null,
+      value: stuck ? 1 : 0,
+      score: stuck ? 1 : 0,
+      status: stuck ? 'critical' : 'ok',
+      thresholds: { type: 'flag' },
+      summary: stuck ? `every value is ${fmt(cur.sortedSample[0])} (baseline had ${base.distinct} distinct values)` : `varies (${cur.distinct} distinct values)`,
+      evidence: { baseline: base.distinct, current: cur.distinct, value: stuck ? cur.sortedSample[0] : null },
+    });
+
+    // Distinct values on equal-size samples, so a quiet day is not a "collapse".
+    if (f.kind === 'numeric' && cur.sortedSample.length > 1) {
+      const k = Math.min(base.sortedSample.length, cur.sortedSample.length);
+      const dBase = distinctCountSorted(thinSorted(base.sortedSample, k));
+      const dCur = distinctCountSorted(thinSorted(cur.sortedSample, k));
+      const drop = dBase > 0 ? Math.max(0, 1 - dCur / dBase) : 0;
+      const t = threshold(config, f, 'distinct_ratio_drop');
+      const status = statusAbove(drop, t);
+      out.push({
+        feature: f.name,
+        check: 'distinct_ratio_drop',
+        rule: null,
+        value: drop,
+        score: drop,
+        status,
+        thresholds: applied(t),
+        summary: `${dCur} distinct values where the baseline had ${dBase} in as many values (drop ${pct(drop)})`,
+        evidence: { baseline: dBase, current: dCur, comparedValues: k },
+      });
+    }
+
+    // PSI over the baseline's quantile bins (nulls in the last bin).
+    const spec = ctx.baseline.bins[f.name];
+    if (spec !== undefined && cur.binCounts.length === base.binCounts.length) {
+      const r = psi(base.binCounts, cur.binCounts);
+      const labels = [...binLabels(spec), 'missing'];
+      const usedBins = base.binCounts.filter((c, i) => c > 0 || (cur.binCounts[i] ?? 0) > 0).length;
+      // The baseline's bin shares come from its value sample: that is its sample size.
+      const n = base.sortedSample.length;
+      const m = cur.quality.rows;
+      const floor = usedBins > 1 && n > 0 && m > 0 ? psiNoiseFloor(n, m, usedBins, config.thresholds.psiNoiseQuantile) : 0;
+      const t = threshold(config, f, 'psi');
+      const raw = statusAbove(r.psi, t);
+      const status: Status = r.psi <= floor ? 'ok' : raw;
+      out.push({
+        feature: f.name,
+        check: 'psi',
+        rule: null,
+        value: r.psi,
+        score: r.psi,
+        status,
+        thresholds: applied(t),
+        summary: `PSI ${fmt(r.psi)} (${status}; warn >= ${t.warn}, critical >= ${t.critical}; noise floor ${fmt(floor)})`,
+        evidence: { baseline: base.mean, current: cur.mean, n, m, noiseFloor: floor, bins: topBins(r, labels), binsUsed: usedBins },
+      });
+    }
+
+    // Two-sample KS on the baseline sample and the day's values (binary features: PSI only).
+    if (f.kind === 'numeric' && cur.sortedSample.length > 0) {
+      const { d, n, m } = ks2Sorted(base.sortedSample, cur.sortedSample);
+      const p = ksPValue(d, n, m);
+      const t = threshold(config, f, 'ks');
+      const draft: FindingDraft = {
+        feature: f.name,
+        check: 'ks',
+        rule: null,
+        value: d,
+        score: d,
+        status: statusAbove(d, t),
+        thresholds: applied(t),
+        summary: '',
+        evidence: { baseline: base.mean, current: cur.mean, n, m, pValue: p.pValue, pValueMethod: p.method, adjustedPValue: null },
+      };
+      ksQueue.push({ draft, p: p.pValue });
+      out.push(draft);
+    }
+  }
+
+  const wl = withinListFindings(ctx, f, base?.withinList ?? null, cur.withinList);
+  out.push(...wl);
+  return out;
+}
+
+function withinListFindings(ctx: Context, f: FeatureConfig, base: WithinListCounts | null, cur: WithinListCounts | null): FindingDraft[] {
+  if (f.scope === 'list' || cur === null || cur.listsJudged === 0) return [];
+  const out: FindingDraft[] = [];
+  const baseFlat = base !== null && ctx.hasBaseline ? ratio(base.flatLists, base.listsJudged) : 0;
+  out.push(
+    increaseFinding(f.name, 'flat_list_ratio', 'lists where it does not vary:', ratio(cur.flatLists, cur.listsJudged), baseFlat, threshold(ctx.config, f, 'flat_list_ratio'), {
+      flatLists: cur.flatLists,
+      listsJudged: cur.listsJudged,
+    }),
+  );
+  if (f.withinList !== undefined) {
+    const judged = cur.listsJudged - cur.flatLists;
+    const baseJudged = base === null ? 0 : base.listsJudged - base.flatLists;
+    const baseRatio = base !== null && ctx.hasBaseline ? ratio(base.ruleViolations, baseJudged) : 0;
+    const finding = increaseFinding(
+      f.name,
+      'rule_violation_ratio',
+      `lists breaking ${f.withinList.rule}:`,
+      ratio(cur.ruleViolations, judged),
+      baseRatio,
+      threshold(ctx.config, f, 'rule_violation_ratio'),
+      { violations: cur.ruleViolations, listsJudged: judged, tolerance: f.withinList.tolerance },
+    );
+    finding.rule = f.withinList.rule;
+    out.push(finding);
+  }
+  return out;
+}
+
+function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalProfile | undefined, cur: CategoricalProfile): FindingDraft[] {
+  const { config } = ctx;
+  const q = cur.quality;
+  const out: FindingDraft[] = [];
+  const baseNull = base === undefined || !f.nullable ? 0 : ratio(base.quality.nulls, base.quality.rows);
+  out.push(increaseFinding(f.name, 'null_ratio', 'null', ratio(q.nulls, q.rows), baseNull, threshold(config, f, 'null_ratio'), { nulls: q.nulls, rows: q.rows, nullable: f.nullable }));
+  if (base !== undefined && ctx.hasBaseline && Object.keys(base.categories).length > 0 && q.finite > 0) {
+    const withNull = (p: CategoricalProfile): Record<string, number> => ({ ...p.categories, ...(p.quality.nulls > 0 ? { '(null)': p.quality.nulls } : {}) });
+    const r = categoryPsi(withNull(base), withNull(cur));
+    const t = threshold(config, f, 'psi');
+    const m = q.rows;
+    const n = base.quality.rows;
+    const floor = r.categories.length > 1 ? psiNoiseFloor(n, m, r.categories.length, config.thresholds.psiNoiseQuantile) : 0;
+    const raw = statusAbove(r.psi, t);
+    const status: Status = r.psi <= floor ? 'ok' : raw;
+    out.push({
+      feature: f.name,
+      check: 'psi',
+      rule: null,
+      value: r.psi,
+      score: r.psi,
+      status,
+      thresholds: applied(t),
+      summary: `PSI ${fmt(r.psi)} over ${r.categories.length} categories (${status}; warn >= ${t.warn}, critical >= ${t.critical})`,
+      evidence: { n, m, noiseFloor: floor, bins: topBins(r, r.categories.map((c) => `category ${JSON.stringify(c)}`)) },
+    });
+    const tn = threshold(config, f, 'new_category_ratio');
+    const newStatus = statusAbove(r.unseenShare, tn);
+    out.push({
+      feature: f.name,
+      check: 'new_category_ratio',
+      rule: null,
+      value: r.unseenShare,
+      score: r.unseenShare,
+      status: newStatus,
+      thresholds: applied(tn),
+      summary: r.unseen.length === 0 ? 'no category unseen in the baseline' : `${pct(r.unseenShare)} of rows in ${r.unseen.length} categor${r.unseen.length === 1 ? 'y' : 'ies'} unseen in the baseline`,
+      // Category names are values of a declared feature (bounded), not ids; keep a few.
+      evidence: { current: r.unseenShare, unseen: r.unseen.slice(0, 10), unseenCount: r.unseen.length },
+    });
+    const stuck = cur.distinct === 1 && base.distinct > 1 && q.finite > 1;
+    out.push({
+      feature: f.name,
+      check: 'constant',
+      rule: null,
+      value: stuck ? 1 : 0,
+      score: stuck ? 1 : 0,
+      status: stuck ? 'critical' : 'ok',
+      thresholds: { type: 'flag' },
+      summary: stuck ? `one category only (baseline had ${base.distinct})` : `${cur.distinct} categories`,
+      evidence: { baseline: base.distinct, current: cur.distinct },
+    });
+  }
+  out.push(...withinListFindings(ctx, f, base?.withinList ?? null, cur.withinList));
+  return out;
+}
+
+function datasetFindings(ctx: Context): FindingDraft[] {
+  const { config, baseline } = ctx;
+  const cur = ctx.current.dataset;
+  const base: DatasetCounts = baseline.dataset;
+  const th = config.thresholds;
+  const out: FindingDraft[] = [];
+  const days = Math.max(1, baseline.days.length);
+  const meanRows = baseline.days.reduce((s, d) => s + d.rows, 0) / days;
+  const meanLists = baseline.days.reduce((s, d) => s + d.lists, 0) / days;
+
+  if (ctx.hasBaseline) {
+    for (const [check, value, mean, what] of [
+      ['row_count_ratio', ctx.current.totalRows, meanRows, 'rows'],
+      ['list_count_ratio', ctx.current.totalLists, meanLists, 'lists'],
+    ] as const) {
+      const t = th[check];
+      const r = ratio(value, mean);
+      const status = statusBand(r, t);
+      out.push({
+        feature: null,
+        check,
+        rule: null,
+        value: r,
+        score: r,
+        status,
+        thresholds: appliedBand(t),
+        summary: `${fmt(value)} ${what}, ${fmt(r)} x the baseline's daily mean of ${fmt(mean)}`,
+        evidence: { baseline: mean, current: value },
+      });
+    }
+    if (base.lists > 0 && cur.lists > 0) {
+      const len = Math.max(base.listSizeCounts.length, cur.listSizeCounts.length);
+      const pad = (a: number[]): number[] => Array.from({ length: len }, (_, i) => a[i] ?? 0);
+      const r = psi(pad(base.listSizeCounts), pad(cur.listSizeCounts));
+      const t = th.list_size_psi;
+      const floor = psiNoiseFloor(base.lists, cur.lists, Math.max(2, r.contributions.filter((_, i) => (base.listSizeCounts[i] ?? 0) > 0 || (cur.listSizeCounts[i] ?? 0) > 0).length), th.psiNoiseQuantile);
+      const raw = statusAbove(r.psi, t);
+      const status: Status = r.psi <= floor ? 'ok' : raw;
+      const meanSize = (c: DatasetCounts): number => ratio(c.rows - c.nullListIdRows, c.lists);
+      out.push({
+        feature: null,
+        check: 'list_size_psi',
+        rule: null,
+        value: r.psi,
+        score: r.psi,
+        status,
+        thresholds: applied(t),
+        summary: `list sizes: PSI ${fmt(r.psi)}; mean size ${fmt(meanSize(cur))} (baseline ${fmt(meanSize(base))})`,
+        evidence: { baseline: meanSize(base), current: meanSize(cur), noiseFloor: floor, bins: topBins(r, Array.from({ length: len }, (_, i) => (i === len - 1 ? `size >= ${i + 1}` : `size ${i + 1}`))) },
+      });
+    }
+  }
+  const baseOr0 = (num: number, den: number): number => (ctx.hasBaseline ? ratio(num, den) : 0);
+  out.push(increaseFinding(null, 'duplicate_item_ratio', 'lists with a duplicated item:', ratio(cur.listsWithDuplicateItems, cur.lists), baseOr0(base.listsWithDuplicateItems, base.lists), th.duplicate_item_ratio, { lists: cur.listsWithDuplicateItems }));
+  out.push(increaseFinding(null, 'position_gap_ratio', 'lists with position gaps:', ratio(cur.listsWithPositionGaps, cur.lists), baseOr0(base.listsWithPositionGaps, base.lists), th.position_gap_ratio, { lists: cur.listsWithPositionGaps }));
+  out.push(increaseFinding(null, 'null_list_id_ratio', 'rows without a list id:', ratio(cur.nullListIdRows, cur.rows), baseOr0(base.nullListIdRows, base.rows), th.null_list_id_ratio, { rows: cur.nullListIdRows }));
+  out.push(increaseFinding(null, 'singleton_list_ratio', 'lists of one item:', ratio(cur.singletonLists, cur.lists), baseOr0(base.singletonLists, base.lists), th.singleton_list_ratio, { lists: cur.singletonLists }));
+  if (config.source.columns.label !== undefined && cur.labelRows > 0) {
+    const curRate = ratio(cur.labelPositives, cur.labelRows);
+    const baseRate = ratio(base.labelPositives, base.labelRows);
+    if (ctx.hasBaseline && baseRate > 0) {
+      const t = th.label_positive_ratio;
+      const r = curRate / baseRate;
+      out.push({
+        feature: null,
+        check: 'label_positive_ratio',
+        rule: null,
+        value: r,
+        score: r,
+        status: statusBand(r, t),
+        thresholds: appliedBand(t),
+        summary: `positive label rate ${pct(curRate)}, ${fmt(r)} x the baseline's ${pct(baseRate)}`,
+        evidence: { baseline: baseRate, current: curRate },
+      });
+    }
+    out.push(increaseFinding(null, 'no_positive_list_ratio', 'lists without a positive label:', ratio(cur.listsWithoutPositive, cur.lists), baseOr0(base.listsWithoutPositive, base.lists), th.no_positive_list_ratio));
+  }
+  return out;
+}
+
+/** A critical dataset-level finding for a day without rows; the other checks do not run. */
+export function snapshotMissingFinding(date: string, reason: string): FindingDraft {
+  return {
+    feature: null,
+    check: 'snapshot_missing',
+    rule: null,
+    value: 1,
+    score: 1,
+    status: 'critical',
+    thresholds: { type: 'flag' },
+    summary: `no snapshot rows for ${date}: ${reason}`,
+    evidence: { current: 0 },
+  };
+}
+
+/** All findings of one day, before alert hysteresis. */
+export function evaluateDay(config: Config, baseline: BaselineProfile, current: DayProfile): FindingDraft[] {
+  if (current.dataset.rows === 0) return [snapshotMissingFinding(current.date, 'the source has no rows for this date')];
+  const ctx: Context = { config, baseline, current, hasBaseline: baseline.days.length >= config.baseline.minDays };
+  const findings: FindingDraft[] = [];
+  const ksQueue: { draft: FindingDraft; p: number }[] = [];
+  for (const f of config.features) {
+    const cur = current.features[f.name];
+    if (cur === undefined) continue;
+    const base = baseline.features[f.name];
+    if (cur.kind === 'categorical') findings.push(...categoricalFindings(ctx, f, base as CategoricalProfile | undefined, cur));
+    else findings.push(...numericFindings(ctx, f, base as NumericProfile | undefined, cur, ksQueue));
+  }
+  // Benjamini-Hochberg across the day's KS tests; D decides, the adjusted p-value gates.
+  if (ksQueue.length > 0) {
+    const adjusted = benjaminiHochberg(ksQueue.map((k) => k.p));
+    ksQueue.forEach(({ draft }, i) => {
+      const adj = adjusted[i]!;
+      draft.evidence.adjustedPValue = adj;
+      const t = draft.thresholds as { warn: number; critical: number };
+      if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
+      draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; warn >= ${t.warn}, critical >= ${t.critical}; adjusted p ${fmt(adj)})`;
+    });
+  }
+  findings.push(...datasetFindings(ctx));
+  return findings;
+}

@@ -1,0 +1,245 @@
+#!/usr/bin/env node
+/**
+ * Composition root: parses the command line, loads the config, wires the units, maps
+ * errors to exit codes (0 ok, 1 --fail-on matched or a bug, 2 config or usage, 3 source or
+ * store unavailable). Nothing else in Plumbline reads argv or exits the process.
+ */
+import { parseArgs } from 'node:util';
+import { connectionsFromEnv, envSetting, loadConfigFile, maskUrl, type Config } from './config/index.ts';
+import { createPool, type Pool } from './db/index.ts';
+import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
+import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
+import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
+import { addDays, dateRange, isIsoDate } from './run/dates.ts';
+import { configFingerprint, runDay } from './run/index.ts';
+import { migrate, Store } from './store/index.ts';
+import { VERSION } from './version.ts';
+
+const USAGE = `plumbline ${VERSION}: watches ranking-feature snapshots in PostgreSQL
+
+Usage:
+  plumbline check-config FILE                 validate a config file and print it resolved
+  plumbline migrate  --config FILE            create or upgrade Plumbline's own tables
+  plumbline run      --config FILE --date YYYY-MM-DD [--format table|json] [--fail-on warn|critical] [--all]
+  plumbline backfill --config FILE --from YYYY-MM-DD --to YYYY-MM-DD [--force]
+  plumbline report   --config FILE --date YYYY-MM-DD|latest [--format table|json] [--all]
+  plumbline serve    --config FILE            the service: schedule, metrics, API, status page
+  plumbline demo                              the whole job on an embedded database
+
+The config file may also be given as PLUMBLINE_CONFIG. Connections come from the environment:
+PLUMBLINE_SOURCE_URL and PLUMBLINE_STORE_URL (or *_FILE naming a file that holds one).
+Exit codes: 0 done, 1 --fail-on matched, 2 config or usage error, 3 source or store unavailable.
+`;
+
+const OPTIONS = {
+  config: { type: 'string', short: 'c' },
+  date: { type: 'string' },
+  from: { type: 'string' },
+  to: { type: 'string' },
+  format: { type: 'string' },
+  'fail-on': { type: 'string' },
+  force: { type: 'boolean' },
+  all: { type: 'boolean' },
+  help: { type: 'boolean', short: 'h' },
+  version: { type: 'boolean' },
+  port: { type: 'string' },
+} as const;
+
+type Values = ReturnType<typeof parseArgs<{ options: typeof OPTIONS; allowPositionals: true }>>['values'];
+
+function usageError(message: string): ConfigError {
+  return new ConfigError(message, [`${message} (plumbline --help lists the commands)`]);
+}
+
+function requireDate(values: Values, name: 'date' | 'from' | 'to'): string {
+  const v = values[name];
+  if (v === undefined) throw usageError(`--${name} YYYY-MM-DD is required`);
+  if (!isIsoDate(v)) throw usageError(`--${name}: ${JSON.stringify(v)} is not a date written YYYY-MM-DD`);
+  return v;
+}
+
+function configPath(values: Values, positionals: string[]): string {
+  const p = values.config ?? positionals[0] ?? envSetting('PLUMBLINE_CONFIG');
+  if (p === undefined) throw usageError('--config FILE is required (or PLUMBLINE_CONFIG)');
+  return p;
+}
+
+export interface Runtime {
+  config: Config;
+  log: Logger;
+  source: Pool;
+  storePool: Pool;
+  store: Store;
+  close(): Promise<void>;
+}
+
+/** Pools and store for a config; connection strings come from the environment only. */
+export function openRuntime(config: Config, log: Logger, env: Readonly<Record<string, string | undefined>> = process.env): Runtime {
+  const conn = connectionsFromEnv(env);
+  const onError = (which: string) => (err: Error) => log.warn(`${which} connection error`, errorFields(err));
+  const source = createPool({ url: conn.sourceUrl, applicationName: 'plumbline-source', statementTimeoutMs: config.source.statementTimeoutSeconds * 1000, onError: onError('source') });
+  // A pool of its own even when both URLs are the same: source reads never queue behind store writes.
+  const storePool = createPool({ url: conn.storeUrl, applicationName: 'plumbline-store', statementTimeoutMs: 120_000, onError: onError('store') });
+  log.debug('connections', { source: maskUrl(conn.sourceUrl), store: maskUrl(conn.storeUrl) });
+  const store = new Store(storePool, config.store.schema);
+  return {
+    config,
+    log,
+    source,
+    storePool,
+    store,
+    async close() {
+      await Promise.allSettled([source.end(), storePool.end()]);
+    },
+  };
+}
+
+function print(report: Report, format: string | undefined, all: boolean | undefined): void {
+  if (format === 'json') process.stdout.write(`${JSON.stringify(report, null, 2)}\n`);
+  else process.stdout.write(renderTable(report, { all: all === true }));
+}
+
+function checkFormat(format: string | undefined): void {
+  if (format !== undefined && format !== 'table' && format !== 'json') throw usageError(`--format must be table or json, got ${JSON.stringify(format)}`);
+}
+
+async function withRuntime<T>(values: Values, positionals: string[], log: Logger, fn: (rt: Runtime) => Promise<T>): Promise<T> {
+  const config = loadConfigFile(configPath(values, positionals));
+  const rt = openRuntime(config, log);
+  try {
+    return await fn(rt);
+  } finally {
+    await rt.close();
+  }
+}
+
+export async function main(argv: string[]): Promise<number> {
+  let parsed;
+  try {
+    parsed = parseArgs({ args: argv, options: OPTIONS, allowPositionals: true, strict: true });
+  } catch (err) {
+    throw usageError((err as Error).message);
+  }
+  const { values, positionals } = parsed;
+  const [command, ...rest] = positionals;
+  if (values.version === true) {
+    process.stdout.write(`${VERSION}\n`);
+    return EXIT.ok;
+  }
+  if (values.help === true || command === undefined || command === 'help') {
+    process.stdout.write(USAGE);
+    return command === undefined && values.help !== true ? EXIT.usage : EXIT.ok;
+  }
+  const log = createLogger((envSetting('PLUMBLINE_LOG_LEVEL') as LogLevel | undefined) ?? 'info');
+
+  switch (command) {
+    case 'check-config': {
+      const path = configPath(values, rest);
+      const config = loadConfigFile(path);
+      process.stdout.write(`# ${path} is valid. Resolved, with defaults (fingerprint ${configFingerprint(config)}):\n`);
+      process.stdout.write(`${JSON.stringify(config, null, 2)}\n`);
+      const env = ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => `# ${k}: ${process.env[k] ? maskUrl(process.env[k]!) : process.env[`${k}_FILE`] ? `from file ${process.env[`${k}_FILE`]}` : '(not set)'}`);
+      process.stdout.write(`${env.join('\n')}\n`);
+      return EXIT.ok;
+    }
+    case 'migrate':
+      return withRuntime(values, rest, log, async (rt) => {
+        const applied = await migrate(rt.storePool, rt.config.store.schema);
+        process.stdout.write(applied.length === 0 ? 'store is up to date\n' : `applied: ${applied.join(', ')}\n`);
+        return EXIT.ok;
+      });
+    case 'run': {
+      checkFormat(values.format);
+      const date = requireDate(values, 'date');
+      const failOn = values['fail-on'];
+      if (failOn !== undefined && failOn !== 'warn' && failOn !== 'critical') throw usageError(`--fail-on must be warn or critical, got ${JSON.stringify(failOn)}`);
+      return withRuntime(values, rest, log, async (rt) => {
+        await migrate(rt.storePool, rt.config.store.schema);
+        const { report } = await runDay({ config: rt.config, source: rt.source, store: rt.store, log }, date);
+        print(report, values.format, values.all);
+        if (failOn !== undefined && STATUS_LEVEL[report.status] >= STATUS_LEVEL[failOn]) return EXIT.failOn;
+        return EXIT.ok;
+      });
+    }
+    case 'backfill': {
+      const from = requireDate(values, 'from');
+      const to = requireDate(values, 'to');
+      if (from > to) throw usageError('--from must not be after --to');
+      return withRuntime(values, rest, log, async (rt) => {
+        await migrate(rt.storePool, rt.config.store.schema);
+        const dates = dateRange(from, to);
+        const done = new Set(values.force === true ? [] : await rt.store.storedDates(from, to));
+        let failures = 0;
+        for (const [i, date] of dates.entries()) {
+          const progress = `[${i + 1}/${dates.length}] ${date}`;
+          if (done.has(date)) {
+            process.stdout.write(`${progress} already stored (use --force to re-run)\n`);
+            continue;
+          }
+          try {
+            const { report, durationSeconds } = await runDay({ config: rt.config, source: rt.source, store: rt.store, log }, date);
+            const problems = report.findings.filter((f) => f.status !== 'ok').length;
+            process.stdout.write(`${progress} ${report.status.toUpperCase()} (${problems} problem${problems === 1 ? '' : 's'}, ${durationSeconds.toFixed(1)} s)\n`);
+          } catch (err) {
+            failures++;
+            process.stdout.write(`${progress} FAILED: ${errorFields(err).error as string}\n`);
+            if (exitCodeFor(err) !== EXIT.bug) throw err;
+          }
+        }
+        return failures > 0 ? EXIT.failOn : EXIT.ok;
+      });
+    }
+    case 'report': {
+      checkFormat(values.format);
+      const which = values.date ?? 'latest';
+      if (which !== 'latest' && !isIsoDate(which)) throw usageError(`--date: ${JSON.stringify(which)} is not a date written YYYY-MM-DD (or latest)`);
+      return withRuntime(values, rest, log, async (rt) => {
+        const report = which === 'latest' ? await rt.store.latestReport() : await rt.store.reportFor(which);
+        if (report === null) {
+          process.stderr.write(`no stored run for ${which}\n`);
+          return EXIT.failOn;
+        }
+        print(report, values.format, values.all);
+        return EXIT.ok;
+      });
+    }
+    case 'serve': {
+      const { serve } = await import('./scheduler/index.ts');
+      const config = loadConfigFile(configPath(values, rest));
+      return serve({ config, log, openRuntime });
+    }
+    case 'demo': {
+      // The demo needs demo-data/ from a source checkout; the production build leaves it out.
+      const demo = (await import('./demo/index.ts').catch(() => null)) as typeof import('./demo/index.ts') | null;
+      if (demo === null) throw usageError('the demo runs from a source checkout: npm run demo');
+      return demo.runDemo({ log, port: values.port === undefined ? undefined : Number(values.port), openRuntime });
+    }
+    default:
+      throw usageError(`unknown command ${JSON.stringify(command)}`);
+  }
+}
+
+function report(err: unknown): number {
+  if (err instanceof ConfigError) {
+    process.stderr.write(`plumbline: ${err.message}\n`);
+    for (const p of err.problems) process.stderr.write(`  - ${p}\n`);
+  } else if (err instanceof StoreError || err instanceof SourceError) {
+    process.stderr.write(`plumbline: ${err.message}\n`);
+  } else {
+    process.stderr.write(`plumbline: unexpected error: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}\n`);
+  }
+  return exitCodeFor(err);
+}
+
+// Run when executed directly (node dist/cli.js, tsx src/cli.ts), not when imported by tests.
+const invokedDirectly = process.argv[1] !== undefined && /cli\.(ts|js)$/.test(process.argv[1]);
+if (invokedDirectly) {
+  main(process.argv.slice(2)).then(
+    (code) => {
+      process.exitCode = code;
+    },
+    (err: unknown) => {
+      process.exitCode = report(err);
+    },
+  );
+}

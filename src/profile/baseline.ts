@@ -1,0 +1,159 @@
+/**
+ * Merging day profiles into a baseline profile. Counts add; value samples are pooled in
+ * proportion to each day's finite values, so a busy weekday weighs more than a quiet
+ * Sunday, exactly as it would in one long column.
+ */
+import type { Config } from '../config/index.ts';
+import { binEdgesFromSorted, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { countsOverBins } from './day.ts';
+import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+
+/**
+ * k evenly spaced order statistics of a sorted array (the values at ranks (i + 0.5) n / k):
+ * a deterministic thinning that keeps the quantiles of the original.
+ */
+export function thinSorted(sorted: Float64Array, k: number): Float64Array {
+  const n = sorted.length;
+  if (k >= n) return sorted;
+  const out = new Float64Array(k);
+  for (let i = 0; i < k; i++) out[i] = sorted[Math.floor(((i + 0.5) * n) / k)]!;
+  return out;
+}
+
+function addDataset(a: DatasetCounts, b: DatasetCounts): DatasetCounts {
+  const sizes = a.listSizeCounts.length >= b.listSizeCounts.length ? [...a.listSizeCounts] : [...b.listSizeCounts];
+  const other = a.listSizeCounts.length >= b.listSizeCounts.length ? b.listSizeCounts : a.listSizeCounts;
+  other.forEach((c, i) => (sizes[i] = sizes[i]! + c));
+  return {
+    rows: a.rows + b.rows,
+    lists: a.lists + b.lists,
+    nullListIdRows: a.nullListIdRows + b.nullListIdRows,
+    listSizeCounts: sizes,
+    singletonLists: a.singletonLists + b.singletonLists,
+    listsWithDuplicateItems: a.listsWithDuplicateItems + b.listsWithDuplicateItems,
+    listsWithPositionGaps: a.listsWithPositionGaps + b.listsWithPositionGaps,
+    labelRows: a.labelRows + b.labelRows,
+    labelPositives: a.labelPositives + b.labelPositives,
+    listsWithoutPositive: a.listsWithoutPositive + b.listsWithoutPositive,
+  };
+}
+
+export const EMPTY_DATASET: DatasetCounts = {
+  rows: 0,
+  lists: 0,
+  nullListIdRows: 0,
+  listSizeCounts: [],
+  singletonLists: 0,
+  listsWithDuplicateItems: 0,
+  listsWithPositionGaps: 0,
+  labelRows: 0,
+  labelPositives: 0,
+  listsWithoutPositive: 0,
+};
+
+function addWithinList(a: WithinListCounts | null, b: WithinListCounts | null): WithinListCounts | null {
+  if (a === null) return b;
+  if (b === null) return a;
+  return { listsJudged: a.listsJudged + b.listsJudged, flatLists: a.flatLists + b.flatLists, ruleViolations: a.ruleViolations + b.ruleViolations };
+}
+
+/** Keeps a day profile small enough to store: each sample thinned to `cap` values. */
+export function capDayProfile(day: DayProfile, cap: number): DayProfile {
+  const features: Record<string, FeatureProfile> = {};
+  for (const [name, f] of Object.entries(day.features)) {
+    features[name] = f.kind === 'categorical' ? f : { ...f, binCounts: [], sortedSample: thinSorted(f.sortedSample, cap) };
+  }
+  return { ...day, features };
+}
+
+export interface BaselineOptions {
+  fingerprint: string;
+  window: { type: string; from: string; to: string };
+  createdAt: string;
+}
+
+/** Merges day profiles (each from the same config) into the baseline of a window. */
+export function mergeBaseline(days: readonly DayProfile[], config: Config, options: BaselineOptions): BaselineProfile {
+  const sampleSize = config.baseline.sampleSize;
+  let dataset = EMPTY_DATASET;
+  for (const d of days) dataset = addDataset(dataset, d.dataset);
+
+  const bins: Record<string, BinSpec> = {};
+  const features: Record<string, FeatureProfile> = {};
+  for (const f of config.features) {
+    const parts = days.map((d) => d.features[f.name]).filter((p): p is FeatureProfile => p !== undefined);
+    if (f.kind === 'categorical') {
+      const cats = parts as CategoricalProfile[];
+      const categories: Record<string, number> = {};
+      let quality: QualityCounts | null = null;
+      let withinList: WithinListCounts | null = null;
+      for (const p of cats) {
+        for (const [k, v] of Object.entries(p.categories)) categories[k] = (categories[k] ?? 0) + v;
+        quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
+        withinList = addWithinList(withinList, p.withinList);
+      }
+      features[f.name] = {
+        kind: 'categorical',
+        quality: quality ?? emptyQuality(),
+        categories,
+        distinct: Object.keys(categories).length,
+        withinList,
+      };
+      continue;
+    }
+    const nums = parts as NumericProfile[];
+    let quality: QualityCounts | null = null;
+    let withinList: WithinListCounts | null = null;
+    let totalFinite = 0;
+    let weightedMean = 0;
+    for (const p of nums) {
+      quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
+      withinList = addWithinList(withinList, p.withinList);
+      totalFinite += p.quality.finite;
+      if (p.mean !== null) weightedMean += p.mean * p.quality.finite;
+    }
+    // Pool each day's sample in proportion to its finite values.
+    const pieces: Float64Array[] = [];
+    let pooled = 0;
+    for (const p of nums) {
+      if (totalFinite === 0) break;
+      const k = Math.min(p.sortedSample.length, Math.max(1, Math.round((sampleSize * p.quality.finite) / totalFinite)));
+      const piece = thinSorted(p.sortedSample, k);
+      pieces.push(piece);
+      pooled += piece.length;
+    }
+    const merged = new Float64Array(pooled);
+    let offset = 0;
+    for (const piece of pieces) {
+      merged.set(piece, offset);
+      offset += piece.length;
+    }
+    merged.sort();
+    const q = quality ?? emptyQuality();
+    const spec = binEdgesFromSorted(merged, config.baseline.bins);
+    bins[f.name] = spec;
+    features[f.name] = {
+      kind: f.kind === 'binary' ? 'binary' : 'numeric',
+      quality: q,
+      binCounts: countsOverBins(spec, merged, q),
+      sortedSample: merged,
+      distinct: distinctCountSorted(merged),
+      mean: totalFinite > 0 ? weightedMean / totalFinite : null,
+      withinList,
+    };
+  }
+  return {
+    fingerprint: options.fingerprint,
+    window: options.window,
+    days: days.map((d) => ({ date: d.date, rows: d.totalRows, lists: d.totalLists })),
+    dataset,
+    bins,
+    features,
+    sampleSize,
+    createdAt: options.createdAt,
+  };
+}
+
+export function emptyQuality(): QualityCounts {
+  return { rows: 0, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 0 };
+}

@@ -1,0 +1,82 @@
+/**
+ * Profiles: what a day (or a baseline window) looks like, as mergeable partial states.
+ * Counts add up across days and across database shards; that is what lets the same
+ * checks run on rows streamed into Plumbline or on aggregates computed inside PostgreSQL.
+ *
+ * Privacy: profiles hold aggregates and value samples only; no list or item ids.
+ */
+import type { BinSpec, QualityCounts } from '../stats/index.ts';
+
+export interface WithinListCounts {
+  /** Lists with at least two non-null finite values of this feature (the lists that can be judged). */
+  listsJudged: number;
+  /** Lists in which the feature is constant. */
+  flatLists: number;
+  /** Lists breaking the feature's within-list rule (flat lists are not counted here). */
+  ruleViolations: number;
+}
+
+export interface NumericProfile {
+  kind: 'numeric' | 'binary';
+  quality: QualityCounts;
+  /** Counts over the baseline's bins; the last entry is the missing bin (null, NaN, type error). */
+  binCounts: number[];
+  /** Finite values, sorted ascending: the baseline's capped sample, or the day's evaluated values. */
+  sortedSample: Float64Array;
+  /** Distinct finite values in sortedSample. */
+  distinct: number;
+  mean: number | null;
+  withinList: WithinListCounts | null;
+}
+
+export interface CategoricalProfile {
+  kind: 'categorical';
+  quality: QualityCounts;
+  /** Rows per category (nulls are in quality.nulls). */
+  categories: Record<string, number>;
+  distinct: number;
+  withinList: WithinListCounts | null;
+}
+
+export type FeatureProfile = NumericProfile | CategoricalProfile;
+
+export interface DatasetCounts {
+  rows: number;
+  lists: number;
+  /** Rows whose list id is null (they belong to no list and are not evaluated per list). */
+  nullListIdRows: number;
+  /** Lists per size; index i holds lists of size i + 1, the last entry lists of size >= its index + 1. */
+  listSizeCounts: number[];
+  singletonLists: number;
+  listsWithDuplicateItems: number;
+  listsWithPositionGaps: number;
+  /** Label counts, when a label column is configured. */
+  labelRows: number;
+  labelPositives: number;
+  listsWithoutPositive: number;
+}
+
+/** The profile of one evaluated day. */
+export interface DayProfile {
+  date: string;
+  dataset: DatasetCounts;
+  /** Rows and lists before whole-list sampling. */
+  totalRows: number;
+  totalLists: number;
+  sampled: boolean;
+  features: Record<string, FeatureProfile>;
+}
+
+/** The profile of a baseline window, computed once per window and config fingerprint. */
+export interface BaselineProfile {
+  fingerprint: string;
+  window: { type: string; from: string; to: string };
+  /** Days of the window that had rows, with their row and list counts. */
+  days: { date: string; rows: number; lists: number }[];
+  dataset: DatasetCounts;
+  /** Bin edges per numeric feature, from the baseline sample's quantiles. */
+  bins: Record<string, BinSpec>;
+  features: Record<string, FeatureProfile>;
+  sampleSize: number;
+  createdAt: string;
+}

@@ -1,0 +1,2 @@
+export * from './contract.ts';
+export { renderTable } from './table.ts';

@@ -1,0 +1,2 @@
+export { runDay, recordMissingSnapshot, configFingerprint, profileFingerprint, daySampleCap, type RunDeps, type RunResult, type RunStore } from './run-day.ts';
+export { addDays, baselineDates, dateInZone, dateRange, isIsoDate } from './dates.ts';

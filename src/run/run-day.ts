@@ -1,0 +1,208 @@
+/**
+ * One day end to end: source -> profiles -> checks -> store. A plain async function of its
+ * dependencies and a date; it knows nothing of schedules, HTTP or the command line.
+ *
+ * Nothing is half-written: the day's findings, its alert state and its run record are
+ * saved in one store transaction at the end; a failure before that leaves every stored
+ * result as it was and records only a failed run.
+ */
+import { createHash } from 'node:crypto';
+import { applyAlertState, evaluateDay, snapshotMissingFinding } from '../checks/index.ts';
+import type { Config } from '../config/index.ts';
+import { withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
+import { errorFields, type Logger } from '../log.ts';
+import { buildDayProfile, capDayProfile, mergeBaseline, type BaselineProfile, type DayProfile } from '../profile/index.ts';
+import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
+import { checkJsonbKeys, countDays, planSource, readDay, type SourcePlan } from '../source/index.ts';
+import { baselineDates } from './dates.ts';
+
+/** What a run needs of the store (src/store implements it). */
+export interface RunStore {
+  saveRun(report: Report): Promise<void>;
+  recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string }): Promise<void>;
+  previousFindings(beforeDate: string): Promise<{ runDate: string; findings: Finding[] } | null>;
+  loadBaseline(fingerprint: string): Promise<BaselineProfile | null>;
+  saveBaseline(profile: BaselineProfile): Promise<void>;
+  loadDayProfiles(fingerprint: string, dates: readonly string[]): Promise<Map<string, DayProfile>>;
+  saveDayProfile(fingerprint: string, profile: DayProfile): Promise<void>;
+}
+
+export interface RunDeps {
+  config: Config;
+  source: Pool;
+  store: RunStore;
+  log: Logger;
+  now?: () => Date;
+  /** Aborts between days of a baseline build and before the final save. */
+  signal?: AbortSignal;
+}
+
+function sha256(value: unknown): string {
+  return createHash('sha256').update(JSON.stringify(value)).digest('hex').slice(0, 16);
+}
+
+/** Everything in the config that changes a run's findings. */
+export function configFingerprint(config: Config): string {
+  const { http: _h, schedule: _s, ...rest } = config;
+  return sha256(rest);
+}
+
+/** Everything that changes a day's profile (not thresholds: those apply later). */
+export function profileFingerprint(config: Config): string {
+  return sha256({
+    v: 1,
+    source: config.source,
+    features: config.features.map(({ thresholds: _t, ...f }) => f),
+    sampleSize: config.baseline.sampleSize,
+    dayCap: daySampleCap(config),
+  });
+}
+
+/** Values kept per feature and day for later baselines: enough for any window to pool sampleSize. */
+export function daySampleCap(config: Config): number {
+  const w = config.baseline.window;
+  const days = w.type === 'trailing' ? w.days : w.type === 'same_weekday' ? w.weeks : 28;
+  return Math.max(2000, Math.ceil((2 * config.baseline.sampleSize) / days));
+}
+
+function throwIfAborted(signal: AbortSignal | undefined): void {
+  if (signal?.aborted) throw signal.reason instanceof Error ? signal.reason : new Error('run aborted');
+}
+
+async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null): Promise<DayProfile> {
+  const cols = await withReadOnlyTransaction(deps.source, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
+  return buildDayProfile(cols, deps.config, bins);
+}
+
+/** Loads the baseline of a window from the store, or builds it from stored day profiles and the source. */
+async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineProfile> {
+  const { config, store, log } = deps;
+  const wanted = baselineDates(config.baseline.window, runDate);
+  const rows = await withReadOnlyTransaction(deps.source, (c: PoolClient) => countDays(c, plan, wanted));
+  const dates = wanted.filter((d) => (rows.get(d) ?? 0) > 0);
+  const profileFp = profileFingerprint(config);
+  // Late rows for a baseline day change its count, and with it the fingerprint.
+  const fingerprint = sha256({ profileFp, days: dates.map((d) => [d, rows.get(d)]) });
+  const cached = await store.loadBaseline(fingerprint);
+  if (cached !== null) return cached;
+
+  const stored = await store.loadDayProfiles(profileFp, dates);
+  const days: DayProfile[] = [];
+  for (const date of dates) {
+    throwIfAborted(deps.signal);
+    let day = stored.get(date);
+    if (day === undefined || day.totalRows !== rows.get(date)) {
+      log.info('profiling baseline day', { date });
+      day = capDayProfile(await readProfile(deps, plan, date, null), daySampleCap(config));
+      await store.saveDayProfile(profileFp, day);
+    }
+    days.push(day);
+  }
+  const window = { type: config.baseline.window.type, from: wanted[0] ?? runDate, to: wanted[wanted.length - 1] ?? runDate };
+  const baseline = mergeBaseline(days, config, { fingerprint, window, createdAt: (deps.now?.() ?? new Date()).toISOString() });
+  await store.saveBaseline(baseline);
+  return baseline;
+}
+
+export interface RunResult {
+  report: Report;
+  durationSeconds: number;
+}
+
+/**
+ * Evaluates one snapshot date and stores its findings. Throws on failure (after
+ * recording it); the stored results of every date are then unchanged.
+ */
+export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult> {
+  const now = deps.now ?? (() => new Date());
+  const started = now();
+  const fingerprint = configFingerprint(deps.config);
+  try {
+    const plan = await withReadOnlyTransaction(deps.source, async (client) => {
+      const p = await planSource(client, deps.config);
+      await checkJsonbKeys(client, deps.config, p);
+      return p;
+    });
+    const baseline = await ensureBaseline(deps, plan, runDate);
+    throwIfAborted(deps.signal);
+    const current = await readProfile(deps, plan, runDate, baseline.bins);
+    throwIfAborted(deps.signal);
+    // The evaluated day becomes a stored day profile too, for the baselines of later days.
+    await deps.store.saveDayProfile(profileFingerprint(deps.config), capDayProfile(current, daySampleCap(deps.config)));
+
+    const drafts = evaluateDay(deps.config, baseline, current);
+    const previous = await deps.store.previousFindings(runDate);
+    const findings = applyAlertState(deps.config, runDate, drafts, previous?.findings ?? null);
+    const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings);
+    throwIfAborted(deps.signal);
+    await deps.store.saveRun(report);
+    const durationSeconds = (Date.parse(report.finishedAt) - started.getTime()) / 1000;
+    deps.log.info('run completed', { runDate, status: report.status, findings: findings.length, durationSeconds });
+    return { report, durationSeconds };
+  } catch (err) {
+    const finished = now();
+    deps.log.error('run failed', { runDate, ...errorFields(err) });
+    try {
+      await deps.store.recordFailure({ runDate, startedAt: started.toISOString(), finishedAt: finished.toISOString(), error: errorFields(err).error as string, configFingerprint: fingerprint });
+    } catch (recordErr) {
+      deps.log.error('could not record the failed run', errorFields(recordErr));
+    }
+    throw err;
+  }
+}
+
+/** A run for a day that never arrived: one critical finding, stored like any run. */
+export async function recordMissingSnapshot(deps: RunDeps, runDate: string, reason: string): Promise<Report> {
+  const now = deps.now ?? (() => new Date());
+  const started = now();
+  const previous = await deps.store.previousFindings(runDate);
+  const findings = applyAlertState(deps.config, runDate, [snapshotMissingFinding(runDate, reason)], previous?.findings ?? null);
+  const emptyBaseline: BaselineProfile = {
+    fingerprint: '',
+    window: { type: deps.config.baseline.window.type, from: runDate, to: runDate },
+    days: [],
+    dataset: { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: [], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 },
+    bins: {},
+    features: {},
+    sampleSize: 0,
+    createdAt: started.toISOString(),
+  };
+  const empty: DayProfile = { date: runDate, dataset: emptyBaseline.dataset, totalRows: 0, totalLists: 0, sampled: false, features: {} };
+  const report = assembleReport(deps.config, runDate, started, now(), configFingerprint(deps.config), emptyBaseline, empty, findings);
+  await deps.store.saveRun(report);
+  return report;
+}
+
+function assembleReport(config: Config, runDate: string, started: Date, finished: Date, fingerprint: string, baseline: BaselineProfile, current: DayProfile, findings: Finding[]): Report {
+  const days = baseline.days.length;
+  const sum = (k: 'rows' | 'lists'): number => baseline.days.reduce((s, d) => s + d[k], 0);
+  const order = { critical: 0, warn: 1, ok: 2 } as const;
+  const sorted = [...findings].sort((a, b) => order[a.status] - order[b.status] || (a.feature ?? '').localeCompare(b.feature ?? '') || a.check.localeCompare(b.check));
+  return {
+    schemaVersion: REPORT_SCHEMA_VERSION,
+    runDate,
+    status: worstStatus(findings.map((f) => f.status)),
+    engine: config.source.engine,
+    startedAt: started.toISOString(),
+    finishedAt: finished.toISOString(),
+    configFingerprint: fingerprint,
+    baseline: {
+      window: baseline.window,
+      days: baseline.days.map((d) => d.date),
+      rows: sum('rows'),
+      lists: sum('lists'),
+      meanRowsPerDay: days > 0 ? sum('rows') / days : 0,
+      meanListsPerDay: days > 0 ? sum('lists') / days : 0,
+      sampleSize: baseline.sampleSize,
+      fingerprint: baseline.fingerprint,
+    },
+    current: {
+      rows: current.totalRows,
+      lists: current.totalLists,
+      evaluatedRows: current.dataset.rows,
+      evaluatedLists: current.dataset.lists,
+      sampled: current.sampled,
+    },
+    findings: sorted,
+  };
+}

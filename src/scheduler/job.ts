@@ -1,0 +1,111 @@
+/**
+ * The daily job as a plain async function of its dependencies and a clock: which dates
+ * are due (the target day plus missed days, oldest first), whether each snapshot looks
+ * complete, and running them. It knows nothing of node-cron; tests call it directly.
+ */
+import type { Config } from '../config/index.ts';
+import { quoteIdent, quoteQualified, withReadOnlyTransaction } from '../db/index.ts';
+import { errorFields } from '../log.ts';
+import type { Report } from '../report/index.ts';
+import { addDays, baselineDates, dateInZone, dateRange, recordMissingSnapshot, runDay, type RunDeps, type RunStore } from '../run/index.ts';
+import { countDays, planSource } from '../source/index.ts';
+
+export interface JobStore extends RunStore {
+  latestEvaluatedDate(): Promise<string | null>;
+  storedDates(from: string, to: string): Promise<string[]>;
+}
+
+export interface JobDeps extends RunDeps {
+  store: JobStore;
+}
+
+/** The snapshot date a run at `now` evaluates. */
+export function targetDate(config: Config, now: Date): string {
+  return addDays(dateInZone(now, config.schedule.timezone), -config.schedule.lagDays);
+}
+
+/** Dates to run at `now`: the target and the missed days before it (at most catchUpMaxDays of them), oldest first. */
+export async function datesDue(deps: JobDeps, now: Date): Promise<string[]> {
+  const target = targetDate(deps.config, now);
+  const max = deps.config.schedule.catchUpMaxDays;
+  const from = addDays(target, -max);
+  const latest = await deps.store.latestEvaluatedDate();
+  const start = latest === null ? target : latest >= target ? null : addDays(latest, 1) > from ? addDays(latest, 1) : from;
+  if (start === null) {
+    const stored = await deps.store.storedDates(target, target);
+    return stored.includes(target) ? [] : [target];
+  }
+  const stored = new Set(await deps.store.storedDates(start, target));
+  return dateRange(start, target).filter((d) => !stored.has(d));
+}
+
+export interface Readiness {
+  ready: boolean;
+  reason: string;
+  rows: number;
+}
+
+/**
+ * A snapshot is ready when the configured marker row exists, or else when it has at least
+ * minRowFraction of the baseline's mean daily rows (any rows at all when there is no baseline yet).
+ */
+export async function checkReadiness(deps: RunDeps, date: string): Promise<Readiness> {
+  const { config } = deps;
+  const r = config.schedule.readiness;
+  return withReadOnlyTransaction(deps.source, async (client) => {
+    const plan = await planSource(client, config);
+    const counts = await countDays(client, plan, [date, ...baselineDates(config.baseline.window, date)]);
+    const rows = counts.get(date) ?? 0;
+    if (r.markerTable !== undefined) {
+      const res = await client.query(`SELECT 1 FROM ${quoteQualified(r.markerTable)} WHERE ${quoteIdent(r.markerDateColumn)} = $1::date LIMIT 1`, [date]);
+      const ready = (res.rowCount ?? 0) > 0;
+      return { ready, rows, reason: ready ? 'marker row present' : `no row for ${date} in ${r.markerTable} yet` };
+    }
+    const baselineRows = [...counts.entries()].filter(([d]) => d !== date).map(([, n]) => n);
+    if (baselineRows.length === 0) return { ready: rows > 0, rows, reason: rows > 0 ? `${rows} rows (no baseline yet)` : 'no rows yet' };
+    const mean = baselineRows.reduce((a, b) => a + b, 0) / baselineRows.length;
+    const needed = Math.ceil(mean * r.minRowFraction);
+    const ready = rows >= needed && rows > 0;
+    return { ready, rows, reason: ready ? `${rows} rows (at least ${needed})` : `${rows} rows so far, waiting for ${needed} (${r.minRowFraction} x the baseline mean)` };
+  });
+}
+
+export type DayOutcome =
+  | { date: string; outcome: 'stored'; report: Report; durationSeconds: number }
+  | { date: string; outcome: 'waiting'; reason: string }
+  | { date: string; outcome: 'missing'; report: Report; reason: string }
+  | { date: string; outcome: 'failed'; error: unknown };
+
+/**
+ * Runs the due dates at `now`, oldest first. A date that is not ready is recorded as a
+ * critical "snapshot missing or late" finding once its deadline has passed (days before
+ * the target always have), and otherwise left waiting for the next try. Stops at the first
+ * failure so that days are never stored out of order behind a broken one.
+ */
+export async function dailyJob(deps: JobDeps, now: Date, options: { deadlinePassed: boolean }): Promise<DayOutcome[]> {
+  const due = await datesDue(deps, now);
+  const target = targetDate(deps.config, now);
+  const outcomes: DayOutcome[] = [];
+  for (const date of due) {
+    if (deps.signal?.aborted) break;
+    try {
+      const readiness = await checkReadiness(deps, date);
+      if (!readiness.ready) {
+        if (date < target || options.deadlinePassed) {
+          const report = await recordMissingSnapshot(deps, date, `not ready by its deadline: ${readiness.reason}`);
+          outcomes.push({ date, outcome: 'missing', report, reason: readiness.reason });
+          continue;
+        }
+        outcomes.push({ date, outcome: 'waiting', reason: readiness.reason });
+        break;
+      }
+      const { report, durationSeconds } = await runDay(deps, date);
+      outcomes.push({ date, outcome: 'stored', report, durationSeconds });
+    } catch (error) {
+      deps.log.warn('scheduled run failed', { date, ...errorFields(error) });
+      outcomes.push({ date, outcome: 'failed', error });
+      break;
+    }
+  }
+  return outcomes;
+}

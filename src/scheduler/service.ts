@@ -1,0 +1,289 @@
+/**
+ * `plumbline serve`: the long-running service. It serves metrics and reports from the
+ * store at once (even while the databases are down), keeps retrying the store with
+ * backoff, runs the daily schedule only while it holds the leader lock, retries failed
+ * runs, and shuts down cleanly on SIGTERM.
+ */
+import { createTask, type ScheduledTask } from 'node-cron';
+import type { Config } from '../config/index.ts';
+import { isConnectionError, type Pool } from '../db/index.ts';
+import { exitCodeFor, EXIT } from '../errors.ts';
+import { PlumblineMetrics, startHttpServer, type RunningHttpServer } from '../exporter/index.ts';
+import { errorFields, type Logger } from '../log.ts';
+import type { Report } from '../report/index.ts';
+import { isIsoDate, runDay } from '../run/index.ts';
+import { migrate, pendingMigrations, type Store } from '../store/index.ts';
+import { VERSION } from '../version.ts';
+import { dailyJob, targetDate } from './job.ts';
+import { LeaderLock } from './leader.ts';
+
+export interface ServiceRuntime {
+  config: Config;
+  log: Logger;
+  source: Pool;
+  storePool: Pool;
+  store: Store;
+  close(): Promise<void>;
+}
+
+export interface ServeOptions {
+  config: Config;
+  log: Logger;
+  openRuntime: (config: Config, log: Logger) => ServiceRuntime;
+  /** Optional status page handler (mounted at / by the HTTP server). */
+  page?: (rt: ServiceRuntime) => (path: string, query: URLSearchParams) => Promise<{ status: number; contentType: string; body: string } | null>;
+  /** Resolves when the service should stop; defaults to SIGTERM or SIGINT. */
+  stopSignal?: Promise<string>;
+  /** false: serve stored results only, no schedule and no catch-up (the demo's back-filled past). */
+  runSchedule?: boolean;
+  /** Called once HTTP is listening (the demo prints its URLs). */
+  onListening?: (url: string) => void;
+  now?: () => Date;
+  /** How often to probe the databases and the leader lock. */
+  probeIntervalMs?: number;
+  /** Grace period for a run in progress at shutdown. */
+  shutdownGraceMs?: number;
+}
+
+function signalPromise(): Promise<string> {
+  return new Promise((resolve) => {
+    const handler = (sig: NodeJS.Signals): void => {
+      process.off('SIGTERM', handler);
+      process.off('SIGINT', handler);
+      resolve(sig);
+    };
+    process.on('SIGTERM', handler);
+    process.on('SIGINT', handler);
+  });
+}
+
+const sleep = (ms: number, signal?: AbortSignal): Promise<void> =>
+  new Promise((resolve) => {
+    const t = setTimeout(resolve, ms);
+    signal?.addEventListener('abort', () => {
+      clearTimeout(t);
+      resolve();
+    }, { once: true });
+  });
+
+/** The service; resolves with the process exit code after a clean shutdown. */
+export async function serve(options: ServeOptions): Promise<number> {
+  const { config, log } = options;
+  const now = options.now ?? (() => new Date());
+  const rt = options.openRuntime(config, log);
+  const metrics = new PlumblineMetrics({ version: VERSION });
+  const stopping = new AbortController();
+  const leader = new LeaderLock(rt.storePool, config.store.schema, log);
+  let migrated = false;
+  let running: Promise<void> | null = null;
+  let runAbort: AbortController | null = null;
+  let retryTimer: NodeJS.Timeout | null = null;
+  let failureStreak = 0;
+  const firstAttempt = new Map<string, Date>();
+
+  const probe = async (pool: Pool): Promise<boolean> => {
+    try {
+      await pool.query('SELECT 1');
+      return true;
+    } catch {
+      return false;
+    }
+  };
+
+  const refreshFromStore = async (): Promise<void> => {
+    const [latest, stats] = await Promise.all([rt.store.latestReport(), rt.store.runStats()]);
+    metrics.showReport(latest);
+    metrics.restoreHealth({ ...stats, sourceUp: await probe(rt.source), storeUp: true, leader: leader.isLeader });
+  };
+
+  // --- runs ---------------------------------------------------------------------------
+  const afterRun = async (ok: boolean, startedAt: Date): Promise<void> => {
+    metrics.recordRun({ ok, startedAt: startedAt.toISOString(), finishedAt: now().toISOString() });
+    try {
+      metrics.showReport(await rt.store.latestReport());
+    } catch (err) {
+      log.warn('could not reload the latest report', errorFields(err));
+    }
+  };
+
+  const scheduleRetry = (ms: number, why: string): void => {
+    if (stopping.signal.aborted) return;
+    if (retryTimer !== null) clearTimeout(retryTimer);
+    log.info('next attempt scheduled', { inSeconds: Math.round(ms / 1000), why });
+    retryTimer = setTimeout(() => {
+      retryTimer = null;
+      void runDue('retry');
+    }, ms);
+    retryTimer.unref();
+  };
+
+  /** Runs what is due now; one at a time (a second call while busy is skipped). */
+  const runDue = async (reason: string): Promise<void> => {
+    if (running !== null || stopping.signal.aborted || !migrated) return;
+    if (!(await leader.tryAcquire())) {
+      metrics.setLeader(false);
+      return;
+    }
+    metrics.setLeader(true);
+    runAbort = new AbortController();
+    const signal = runAbort.signal;
+    running = (async () => {
+      const startedAt = now();
+      const fired = now();
+      const target = targetDate(config, fired);
+      // The readiness deadline counts from the first attempt at this target date.
+      if (!firstAttempt.has(target)) firstAttempt.set(target, fired);
+      const deadlinePassed = deadlineHasPassed(config, fired, firstAttempt.get(target));
+      log.info('running due days', { reason, target });
+      const outcomes = await dailyJob({ config, source: rt.source, store: rt.store, log, signal, now }, fired, { deadlinePassed });
+      for (const o of outcomes) {
+        if (o.outcome === 'stored' || o.outcome === 'missing') await afterRun(true, startedAt);
+        if (o.outcome === 'failed') await afterRun(false, startedAt);
+      }
+      const failed = outcomes.find((o) => o.outcome === 'failed');
+      const waiting = outcomes.find((o) => o.outcome === 'waiting');
+      if (failed !== undefined && failed.outcome === 'failed') {
+        failureStreak++;
+        // Connection trouble heals by itself: retry soon, backing off; other failures wait longer.
+        const base = isConnectionError(failed.error) ? 15_000 : 300_000;
+        scheduleRetry(Math.min(base * 2 ** (failureStreak - 1), 3_600_000), `run of ${failed.date} failed`);
+      } else {
+        failureStreak = 0;
+        if (waiting !== undefined && waiting.outcome === 'waiting') scheduleRetry(config.schedule.readiness.retryEverySeconds * 1000, `${waiting.date}: ${waiting.reason}`);
+      }
+    })()
+      .catch((err: unknown) => {
+        log.error('scheduled job crashed', errorFields(err));
+      })
+      .finally(() => {
+        running = null;
+        runAbort = null;
+      });
+    await running;
+  };
+
+  /** POST /api/v1/runs: a manual run of one date (or of what is due). */
+  const trigger = async (date: string | null): Promise<{ accepted: boolean; message: string }> => {
+    if (!migrated) return { accepted: false, message: 'the store is not ready yet' };
+    if (running !== null) return { accepted: false, message: 'a run is in progress' };
+    if (date === null) {
+      void runDue('manual');
+      return { accepted: true, message: 'running the due days' };
+    }
+    if (!isIsoDate(date)) return { accepted: false, message: 'date must be YYYY-MM-DD' };
+    runAbort = new AbortController();
+    const signal = runAbort.signal;
+    const startedAt = now();
+    running = runDay({ config, source: rt.source, store: rt.store, log, signal, now }, date)
+      .then(
+        () => afterRun(true, startedAt),
+        () => afterRun(false, startedAt),
+      )
+      .finally(() => {
+        running = null;
+        runAbort = null;
+      });
+    return { accepted: true, message: `running ${date}` };
+  };
+
+  // --- HTTP -------------------------------------------------------------------------------
+  let http: RunningHttpServer;
+  try {
+    http = await startHttpServer(
+      {
+        metrics,
+        latestReport: () => rt.store.latestReport(),
+        reportFor: (d: string) => rt.store.reportFor(d),
+        readiness: async (): Promise<{ ready: boolean; reasons: string[] }> => {
+          const reasons: string[] = [];
+          try {
+            const pending = await pendingMigrations(rt.storePool, config.store.schema);
+            if (pending.length > 0) reasons.push(`store migrations pending: ${pending.join(', ')}`);
+          } catch (err) {
+            reasons.push(`store unreachable: ${errorFields(err).error as string}`);
+          }
+          return { ready: reasons.length === 0, reasons };
+        },
+        trigger,
+        ...(options.page !== undefined ? { page: options.page(rt) } : {}),
+      },
+      { host: config.http.host, port: config.http.port },
+    );
+  } catch (err) {
+    await rt.close();
+    log.error('cannot listen', { host: config.http.host, port: config.http.port, ...errorFields(err) });
+    return exitCodeFor(err) === EXIT.bug ? EXIT.unavailable : exitCodeFor(err);
+  }
+  log.info('listening', { url: http.url });
+  options.onListening?.(http.url);
+
+  // --- start-up: the store, with backoff; the schedule ---------------------------------------
+  let task: ScheduledTask | null = null;
+  const startUp = (async () => {
+    for (let attempt = 0; !stopping.signal.aborted; attempt++) {
+      try {
+        await migrate(rt.storePool, config.store.schema);
+        await refreshFromStore();
+        migrated = true;
+        break;
+      } catch (err) {
+        metrics.setStoreUp(false);
+        const wait = Math.min(1000 * 2 ** attempt, 30_000);
+        log.warn('store not available yet; retrying', { inSeconds: wait / 1000, ...errorFields(err) });
+        await sleep(wait, stopping.signal);
+      }
+    }
+    if (stopping.signal.aborted || options.runSchedule === false) return;
+    task = createTask(config.schedule.cron, () => runDue('schedule'), { name: 'plumbline-daily', timezone: config.schedule.timezone, noOverlap: true });
+    task.on('execution:failed', (ctx) => log.error('schedule execution failed', errorFields(ctx.execution?.error)));
+    await task.start();
+    log.info('schedule started', { cron: config.schedule.cron, timezone: config.schedule.timezone, next: task.getNextRun()?.toISOString() ?? null });
+    // Catch up on start: missed days since the last stored run.
+    await runDue('start');
+  })();
+
+  const probes = setInterval(() => {
+    void (async () => {
+      const [s, st] = await Promise.all([probe(rt.source), probe(rt.storePool)]);
+      metrics.setSourceUp(s);
+      metrics.setStoreUp(st);
+      if (migrated && running === null) {
+        const wasLeader = leader.isLeader;
+        const isLeader = await leader.tryAcquire();
+        metrics.setLeader(isLeader);
+        if (isLeader && !wasLeader) void runDue('became leader');
+      }
+    })();
+  }, options.probeIntervalMs ?? 15_000);
+  probes.unref();
+
+  // --- shutdown -----------------------------------------------------------------------------
+  const sig = await (options.stopSignal ?? signalPromise());
+  log.info('stopping', { signal: sig });
+  stopping.abort();
+  clearInterval(probes);
+  if (retryTimer !== null) clearTimeout(retryTimer);
+  if (task !== null) await (task as ScheduledTask).stop();
+  if (running !== null) {
+    const grace = options.shutdownGraceMs ?? 20_000;
+    // Let the run finish within the grace period; then abort it (it rolls back and stores nothing).
+    const finished = await Promise.race([(running as Promise<void>).then(() => true), sleep(grace).then(() => false)]);
+    if (!finished) {
+      (runAbort as AbortController | null)?.abort(new Error('shutting down'));
+      await Promise.race([running as Promise<void>, sleep(5000)]);
+    }
+  }
+  await startUp.catch(() => undefined);
+  await http.close();
+  await leader.release();
+  await rt.close();
+  log.info('stopped');
+  return EXIT.ok;
+}
+
+/** True once readiness.deadlineMinutes have passed since the first attempt at a date. */
+export function deadlineHasPassed(config: Config, at: Date, firstAttempt: Date | undefined): boolean {
+  return firstAttempt !== undefined && at.getTime() - firstAttempt.getTime() >= config.schedule.readiness.deadlineMinutes * 60_000;
+}
+
+export type { Report };

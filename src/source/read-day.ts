@@ -1,0 +1,265 @@
+/**
+ * Reads one day of the source into columns: per-feature typed arrays and per-row list
+ * indexes, never one JavaScript object per row. The day is counted and copied inside
+ * one REPEATABLE READ READ ONLY transaction, so the count and the rows agree.
+ */
+import { pipeline } from 'node:stream/promises';
+import { Writable } from 'node:stream';
+import { to as copyTo } from 'pg-copy-streams';
+import type { PoolClient } from '../db/index.ts';
+import { DataError } from '../errors.ts';
+import { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
+import type { SourcePlan } from './plan.ts';
+
+/** Row-level missing codes, shared with stats/quality. */
+export const PRESENT = 0;
+export const NULL_VALUE = 1;
+export const TYPE_ERROR = 2;
+
+export interface CategoricalColumn {
+  codes: Int32Array; // -1 for null
+  dictionary: string[];
+}
+
+export interface DayColumns {
+  date: string;
+  rows: number;
+  /** Rows of the day before whole-list sampling. */
+  totalRows: number;
+  sampled: boolean;
+  /** List index per row (0..lists-1), -1 when the list id is null. */
+  listOf: Int32Array;
+  lists: number;
+  /** 53-bit hash of the item id per row (NaN for a null id); only compared within a list. */
+  itemHash: Float64Array;
+  /** Position per row; NULL_POSITION when null. */
+  position: Int32Array;
+  /** Label per row, NaN when null; null when no label column is configured. */
+  label: Float64Array | null;
+  /** Per config feature index: numeric values (NaN where missing) or null for categorical. */
+  numeric: (Float64Array | null)[];
+  /** Per config feature index: missing codes, or null when nothing was missing. */
+  missing: (Uint8Array | null)[];
+  categorical: (CategoricalColumn | null)[];
+}
+
+export const NULL_POSITION = -2147483648;
+
+/**
+ * Two 32-bit FNV-1a variants over the same bytes, combined into 53 bits: ids are only
+ * compared for equality within one list or one day, where 2^-53 collisions do not matter.
+ */
+function hashBytes(buf: Buffer, start: number, length: number): number {
+  let h1 = 0x811c9dc5;
+  let h2 = 0x01000193 ^ length;
+  for (let i = start, end = start + length; i < end; i++) {
+    const b = buf[i]!;
+    h1 = Math.imul(h1 ^ b, 0x01000193);
+    h2 = Math.imul(h2 ^ b, 0x5bd1e995);
+    h2 ^= h2 >>> 15;
+  }
+  return (h1 >>> 0) * 2097152 + ((h2 >>> 0) & 0x1fffff);
+}
+
+/** Parses a jsonb value's text: a number, null, true/false (1/0) or anything else (type error). */
+function parseJsonNumber(buf: Buffer, start: number, length: number): number | null | undefined {
+  const first = buf[start];
+  if (first === 0x6e /* n */) return null;
+  if (first === 0x74 /* t */) return 1;
+  if (first === 0x66 /* f */) return 0;
+  if (first === 0x22 /* " */ || first === 0x7b /* { */ || first === 0x5b /* [ */) return undefined;
+  const v = Number(buf.toString('latin1', start, start + length));
+  return Number.isNaN(v) ? undefined : v;
+}
+
+class DaySink implements TupleSink {
+  row = 0;
+  readonly listIds = new Map<number, number>();
+  readonly categoryCodes: (Map<string, number> | null)[];
+  private readonly featureColumn: number[];
+  private readonly labelColumn: number;
+  private readonly firstFeatureColumn: number;
+
+  constructor(
+    private readonly plan: SourcePlan,
+    private readonly out: DayColumns,
+  ) {
+    this.labelColumn = plan.hasLabel ? 3 : -1;
+    this.firstFeatureColumn = plan.hasLabel ? 4 : 3;
+    this.featureColumn = plan.features.map((f) => f.index);
+    this.categoryCodes = out.categorical.map((c) => (c === null ? null : new Map()));
+  }
+
+  field(column: number, buf: Buffer, start: number, length: number): void {
+    const row = this.row;
+    const isNull = start < 0;
+    if (column === 0) {
+      if (isNull) this.out.listOf[row] = -1;
+      else {
+        const h = hashBytes(buf, start, length);
+        let idx = this.listIds.get(h);
+        if (idx === undefined) {
+          idx = this.listIds.size;
+          this.listIds.set(h, idx);
+        }
+        this.out.listOf[row] = idx;
+      }
+    } else if (column === 1) {
+      this.out.itemHash[row] = isNull ? Number.NaN : hashBytes(buf, start, length);
+    } else if (column === 2) {
+      this.out.position[row] = isNull ? NULL_POSITION : buf.readInt32BE(start);
+    } else if (column === this.labelColumn) {
+      this.out.label![row] = isNull ? Number.NaN : buf.readDoubleBE(start);
+    } else {
+      const fi = this.featureColumn[column - this.firstFeatureColumn]!;
+      const decoder = this.plan.decoders[column];
+      if (decoder === 'text') {
+        const cat = this.out.categorical[fi]!;
+        if (isNull) cat.codes[row] = -1;
+        else {
+          const value = buf.toString('utf8', start, start + length);
+          const codes = this.categoryCodes[fi]!;
+          let code = codes.get(value);
+          if (code === undefined) {
+            code = cat.dictionary.length;
+            codes.set(value, code);
+            cat.dictionary.push(value);
+          }
+          cat.codes[row] = code;
+        }
+        return;
+      }
+      const values = this.out.numeric[fi]!;
+      if (isNull) {
+        values[row] = Number.NaN;
+        this.markMissing(fi, row, NULL_VALUE);
+      } else if (decoder === 'float8') {
+        values[row] = buf.readDoubleBE(start);
+      } else {
+        const v = parseJsonNumber(buf, start, length);
+        if (v === null) {
+          values[row] = Number.NaN;
+          this.markMissing(fi, row, NULL_VALUE);
+        } else if (v === undefined) {
+          values[row] = Number.NaN;
+          this.markMissing(fi, row, TYPE_ERROR);
+        } else values[row] = v;
+      }
+    }
+  }
+
+  private markMissing(fi: number, row: number, code: number): void {
+    let m = this.out.missing[fi];
+    if (m === null || m === undefined) {
+      m = new Uint8Array(this.out.numeric[fi]!.length);
+      this.out.missing[fi] = m;
+    }
+    m[row] = code;
+  }
+
+  endTuple(): void {
+    this.row++;
+  }
+}
+
+export interface ReadDayOptions {
+  /** Keep at most about this many rows, as whole lists chosen by a hash of the list id. */
+  maxRows: number;
+  featureCount: number;
+}
+
+/** md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. */
+function listHashExpression(listId: string): string {
+  return `(('x' || substr(md5(${listId}::text), 1, 8))::bit(32)::bigint / 4294967296.0)`;
+}
+
+/**
+ * Reads one day. `client` must be inside a read-only REPEATABLE READ transaction (the
+ * count and the COPY then see the same snapshot).
+ */
+export async function readDay(client: PoolClient, plan: SourcePlan, date: string, options: ReadDayOptions): Promise<DayColumns> {
+  const where = `${plan.dateColumn} = $1::date`;
+  const countRes = await client.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where}`, [date]);
+  const totalRows = Number(countRes.rows[0]?.n ?? 0);
+  const sampled = totalRows > options.maxRows;
+  const fraction = sampled ? options.maxRows / totalRows : 1;
+  let rows = totalRows;
+  if (sampled) {
+    const res = await client.query<{ n: string }>(
+      `SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where} AND ${listHashExpression(plan.listIdExpression)} < $2`,
+      [date, fraction],
+    );
+    rows = Number(res.rows[0]?.n ?? 0);
+  }
+
+  const out: DayColumns = {
+    date,
+    rows,
+    totalRows,
+    sampled,
+    listOf: new Int32Array(rows),
+    lists: 0,
+    itemHash: new Float64Array(rows),
+    position: new Int32Array(rows),
+    label: plan.hasLabel ? new Float64Array(rows) : null,
+    numeric: Array.from({ length: options.featureCount }, () => null),
+    missing: Array.from({ length: options.featureCount }, () => null),
+    categorical: Array.from({ length: options.featureCount }, () => null),
+  };
+  for (const f of plan.features) {
+    if (f.decoder === 'text') out.categorical[f.index] = { codes: new Int32Array(rows), dictionary: [] };
+    else out.numeric[f.index] = new Float64Array(rows);
+  }
+  if (rows === 0) return out;
+
+  // COPY takes no bind parameters: the date is validated as YYYY-MM-DD before it gets here
+  // and the sampling fraction is a number we computed.
+  if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
+  const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
+  const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
+  const sink = new DaySink(plan, out);
+  const parser = new CopyBinaryParser(plan.selectList.length, {
+    field: (c, b, s, l) => {
+      if (sink.row >= rows) throw new DataError(`the source returned more rows for ${date} than it counted (${rows}); is it being written to?`);
+      sink.field(c, b, s, l);
+    },
+    endTuple: () => sink.endTuple(),
+  });
+  const stream = client.query(copyTo(sql));
+  await pipeline(
+    stream,
+    new Writable({
+      write(chunk: Buffer, _enc, done) {
+        try {
+          parser.push(chunk);
+          done();
+        } catch (err) {
+          done(err as Error);
+        }
+      },
+      final(done) {
+        try {
+          parser.end();
+          done();
+        } catch (err) {
+          done(err as Error);
+        }
+      },
+    }),
+  );
+  if (sink.row !== rows) throw new DataError(`the source returned ${sink.row} rows for ${date} but counted ${rows}`);
+  out.lists = sink.listIds.size;
+  return out;
+}
+
+/** Rows per date, for the dates that have any, from one grouped query. */
+export async function countDays(client: PoolClient, plan: SourcePlan, dates: readonly string[]): Promise<Map<string, number>> {
+  const result = new Map<string, number>();
+  if (dates.length === 0) return result;
+  const res = await client.query<{ d: string; rows: string }>(
+    `SELECT ${plan.dateColumn}::text AS d, count(*)::text AS rows FROM ${plan.relation} WHERE ${plan.dateColumn} = ANY($1::date[]) GROUP BY 1`,
+    [dates],
+  );
+  for (const r of res.rows) result.set(r.d, Number(r.rows));
+  return result;
+}
