@@ -52,6 +52,13 @@ export async function withTransaction<T>(pool: Pool, fn: (client: PoolClient) =>
 async function withTransactionMode<T>(pool: Pool, begin: string, fn: (client: PoolClient) => Promise<T>): Promise<T> {
   const client = await pool.connect();
   let broken: Error | undefined;
+  // A checked-out client has no pool listener: without this one, a connection lost in the
+  // middle (server restart, terminated backend) is an unhandled 'error' event that ends
+  // the process. The failing query rejects anyway; the client must not go back to the pool.
+  const onLost = (err: Error): void => {
+    broken ??= err;
+  };
+  client.on('error', onLost);
   try {
     await client.query(begin);
     const result = await fn(client);
@@ -62,10 +69,11 @@ async function withTransactionMode<T>(pool: Pool, begin: string, fn: (client: Po
       await client.query('ROLLBACK');
     } catch (rollbackErr) {
       // The connection itself is gone; do not hand it back to the pool.
-      broken = rollbackErr as Error;
+      broken ??= rollbackErr as Error;
     }
     throw err;
   } finally {
+    client.removeListener('error', onLost);
     client.release(broken);
   }
 }

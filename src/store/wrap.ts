@@ -1,0 +1,43 @@
+/**
+ * Turns database errors into StoreError with a message that says what failed. The
+ * original error stays as `cause` (its SQLSTATE `code` included) for callers that branch
+ * on it; the message never carries a connection string.
+ */
+import { isConnectionError, sqlState } from '../db/index.ts';
+import { StoreError } from '../errors.ts';
+
+/** SQLSTATEs that mean the store schema or its tables are missing. */
+const NOT_MIGRATED = new Set(['3F000', '42P01']);
+
+export function storeError(what: string, err: unknown): StoreError {
+  if (err instanceof StoreError) return err;
+  const state = sqlState(err);
+  let message = `${what}: ${describe(err)}`;
+  if (state !== undefined && NOT_MIGRATED.has(state)) message += ' (the store schema is not migrated; run the migrations first)';
+  else if (isConnectionError(err)) message += ' (the store database is unreachable)';
+  return new StoreError(message, { cause: err });
+}
+
+/** Runs `fn`, wrapping whatever it throws. */
+export async function wrapped<T>(what: string, fn: () => Promise<T>): Promise<T> {
+  try {
+    return await fn();
+  } catch (err) {
+    throw storeError(what, err);
+  }
+}
+
+function describe(err: unknown): string {
+  if (!(err instanceof Error)) return redact(String(err));
+  const state = sqlState(err);
+  // Node's connect errors can be an AggregateError with an empty message (one per address tried).
+  let text = err.message;
+  if (text === '' && err instanceof AggregateError && err.errors[0] instanceof Error) text = err.errors[0].message;
+  if (text === '') text = (err as { code?: string }).code ?? err.name;
+  return redact(state !== undefined ? `${text} (SQLSTATE ${state})` : text);
+}
+
+/** Removes anything that looks like a URL (a connection string may hold a password). */
+function redact(text: string): string {
+  return text.replace(/\b[a-z][a-z0-9+.-]*:\/\/\S+/gi, '<url>');
+}

@@ -1,0 +1,160 @@
+/**
+ * A day end to end against a real PostgreSQL server: the invented scenario of demo-data/
+ * with one injected fault per day, each of which must be caught; clean days with weekly
+ * seasonality and noise must stay quiet; failed runs must leave the store as it was.
+ */
+import pg from 'pg';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { addDays, scenarioDates, type FaultPlan, type ScenarioOptions } from '../../demo-data/scenario.ts';
+import { loadScenario } from '../../demo-data/load.ts';
+import { openRuntime, type Runtime } from '../../src/cli.ts';
+import { silentLogger } from '../../src/log.ts';
+import type { Finding, Report } from '../../src/report/index.ts';
+import { recordMissingSnapshot, runDay } from '../../src/run/index.ts';
+import { migrate } from '../../src/store/index.ts';
+import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { scenarioConfig } from '../support/scenario-config.ts';
+
+const url = testDatabaseUrl();
+const START = '2025-06-02'; // a Monday
+const BASELINE_DAYS = 14;
+const faultDay = (i: number): string => addDays(START, BASELINE_DAYS + i);
+
+/** One fault per day after a 14-day clean baseline; the expected finding beside each. */
+const FAULTS: { plan: FaultPlan; expect: { feature: string | null; check: string; rule?: string; atLeast: 'warn' | 'critical' } }[] = [
+  { plan: { date: faultDay(0), kind: 'mean_shift', feature: 'semantic_similarity', amount: 0.5 }, expect: { feature: 'semantic_similarity', check: 'ks', atLeast: 'warn' } },
+  { plan: { date: faultDay(1), kind: 'unit_change', feature: 'price', amount: 100 }, expect: { feature: 'price', check: 'psi', atLeast: 'critical' } },
+  { plan: { date: faultDay(2), kind: 'null_spike', feature: 'review_count', amount: 0.2 }, expect: { feature: 'review_count', check: 'null_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(3), kind: 'minmax_raw', feature: 'text_match_norm' }, expect: { feature: 'text_match_norm', check: 'rule_violation_ratio', rule: 'minmax', atLeast: 'critical' } },
+  { plan: { date: faultDay(4), kind: 'stuck_default', feature: 'listing_age_days', amount: 0 }, expect: { feature: 'listing_age_days', check: 'constant', atLeast: 'critical' } },
+  { plan: { date: faultDay(5), kind: 'flat_within_lists', feature: 'photo_quality' }, expect: { feature: 'photo_quality', check: 'flat_list_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(6), kind: 'list_truncation', amount: 0.4 }, expect: { feature: null, check: 'list_size_psi', atLeast: 'critical' } },
+  { plan: { date: faultDay(7), kind: 'new_category', feature: 'plant_family', amount: 0.3 }, expect: { feature: 'plant_family', check: 'new_category_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(8), kind: 'nonfinite', feature: 'text_match', amount: 0.02 }, expect: { feature: 'text_match', check: 'nonfinite_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(9), kind: 'duplicate_items', amount: 0.2 }, expect: { feature: null, check: 'duplicate_item_ratio', atLeast: 'critical' } },
+];
+
+const SCENARIO: ScenarioOptions = {
+  startDate: START,
+  days: BASELINE_DAYS + FAULTS.length,
+  listsPerDay: 200,
+  meanListSize: 20,
+  seed: 7,
+  faults: FAULTS.map((f) => f.plan),
+};
+
+const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
+
+function find(report: Report, feature: string | null, check: string, rule?: string): Finding | undefined {
+  return report.findings.find((f) => f.feature === feature && f.check === check && (rule === undefined || f.rule === rule));
+}
+
+describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_TEST_DATABASE_URL)', () => {
+  const sourceSchema = uniqueSchema('rd_src');
+  const storeSchema = uniqueSchema('rd_store');
+  const table = `${sourceSchema}.impressions`;
+  const config = scenarioConfig(table, { storeSchema, overrides: { baseline: { window: { type: 'trailing', days: BASELINE_DAYS } } } });
+  let rt: Runtime;
+  let admin: pg.Client;
+  const reports = new Map<string, Report>();
+
+  beforeAll(async () => {
+    admin = new pg.Client({ connectionString: url });
+    await admin.connect();
+    await loadScenario(admin, { table, layout: 'wide', scenario: SCENARIO });
+    rt = openRuntime(config, silentLogger, { PLUMBLINE_SOURCE_URL: url });
+    await migrate(rt.storePool, storeSchema);
+    for (const { plan } of FAULTS) {
+      const { report } = await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, plan.date);
+      reports.set(plan.date, report);
+    }
+  });
+
+  afterAll(async () => {
+    await rt?.close();
+    await admin?.query(`DROP SCHEMA IF EXISTS "${sourceSchema}" CASCADE; DROP SCHEMA IF EXISTS "${storeSchema}" CASCADE`);
+    await admin?.end();
+  });
+
+  it.each(FAULTS.map((f) => [f.plan.kind, f] as const))('catches %s', (_kind, { plan, expect: want }) => {
+    const report = reports.get(plan.date)!;
+    const finding = find(report, want.feature, want.check, want.rule);
+    expect(finding, `${want.feature ?? 'dataset'} ${want.check} on ${plan.date}`).toBeDefined();
+    expect(LEVEL[finding!.status]).toBeGreaterThanOrEqual(LEVEL[want.atLeast]);
+    expect(report.status).not.toBe('ok');
+  });
+
+  it('keeps clean days with weekly seasonality quiet: no critical finding, few warnings', async () => {
+    // The second week of the scenario, each day against the clean days before it (window 7).
+    const shortConfig = scenarioConfig(table, { storeSchema, overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
+    const clean = scenarioDates(SCENARIO).slice(7, BASELINE_DAYS);
+    let warnings = 0;
+    let checks = 0;
+    for (const date of clean) {
+      const { report } = await runDay({ config: shortConfig, source: rt.source, store: rt.store, log: silentLogger }, date);
+      const critical = report.findings.filter((f) => f.status === 'critical');
+      expect(critical.map((f) => `${date} ${f.feature} ${f.check}: ${f.summary}`)).toEqual([]);
+      warnings += report.findings.filter((f) => f.status === 'warn').length;
+      checks += report.findings.length;
+    }
+    // A warning is a "look when convenient"; on clean data they must stay rare (< 2 % of checks).
+    expect(warnings / checks).toBeLessThan(0.02);
+  });
+
+  it('counts null list ids, lists of one item and duplicated items instead of failing', async () => {
+    const date = addDays(START, 60);
+    const cols = 'snapshot_date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family';
+    await admin.query(
+      `INSERT INTO ${table} (${cols}) SELECT $1::date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family FROM ${table} WHERE snapshot_date = $2::date`,
+      [date, faultDay(0)],
+    );
+    await admin.query(`UPDATE ${table} SET list_id = NULL WHERE snapshot_date = $1::date AND position = 3`, [date]);
+    await admin.query(`INSERT INTO ${table} (${cols}) VALUES ($1::date, 'solo-list', 'solo-item', 1, 0, 0.5, 1, 0, 0, 10, 0, 1, 1, 3, 4.5, 10, 0.5, 3, 1, 'fern')`, [date]);
+    const { report } = await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, date);
+    const truth = await admin.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${table} WHERE snapshot_date = $1::date AND list_id IS NULL`, [date]);
+    expect(Number(truth.rows[0]!.n)).toBeGreaterThan(100);
+    const nullIds = find(report, null, 'null_list_id_ratio')!;
+    expect(nullIds.status).toBe('critical');
+    expect(nullIds.evidence['rows']).toBe(Number(truth.rows[0]!.n));
+    const singles = find(report, null, 'singleton_list_ratio')!;
+    expect(singles.evidence['lists']).toBeGreaterThanOrEqual(1);
+  });
+
+  it('stores a critical snapshot_missing finding for a day without rows', async () => {
+    const date = addDays(START, 90);
+    const { report } = await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, date);
+    expect(report.status).toBe('critical');
+    expect(report.findings.map((f) => f.check)).toEqual(['snapshot_missing']);
+    const late = await recordMissingSnapshot({ config, source: rt.source, store: rt.store, log: silentLogger }, addDays(date, 1), 'not ready by its deadline');
+    expect(late.findings[0]!.summary).toContain('not ready by its deadline');
+  });
+
+  it('leaves every stored result unchanged when a run fails midway (connection killed during the read)', async () => {
+    const date = FAULTS[2]!.plan.date;
+    const before = await rt.store.reportFor(date);
+    const statsBefore = await rt.store.runStats();
+    // Kill the source connection as soon as it starts copying the day.
+    const killer = setInterval(() => {
+      void admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name = 'plumbline-source' AND query LIKE 'COPY%'`);
+    }, 5);
+    try {
+      await expect(runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, date)).rejects.toThrow();
+    } finally {
+      clearInterval(killer);
+    }
+    expect(await rt.store.reportFor(date)).toEqual(before);
+    const statsAfter = await rt.store.runStats();
+    expect(statsAfter.failures).toBe(statsBefore.failures + 1);
+    expect(statsAfter.successes).toBe(statsBefore.successes);
+  });
+
+  it('names the missing column and its config path', async () => {
+    const broken = scenarioConfig(table, { storeSchema, overrides: {} });
+    broken.features[3] = { ...broken.features[3]!, column: 'price_in_cents' };
+    await expect(runDay({ config: broken, source: rt.source, store: rt.store, log: silentLogger }, faultDay(0))).rejects.toMatchObject({
+      name: 'ConfigError',
+      problems: [expect.stringMatching(/^features\[3\]\.column: column "price_in_cents" does not exist/)],
+    });
+  });
+});
+
