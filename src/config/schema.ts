@@ -121,7 +121,7 @@ const ThresholdsSchema = z
     list_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.list_count_ratio),
     label_positive_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.label_positive_ratio),
   })
-  .default({} as never);
+  .prefault({});
 
 export type Thresholds = z.infer<typeof ThresholdsSchema>;
 
@@ -213,7 +213,7 @@ export const ConfigSchema = z
           label: identifier.optional(),
           score: identifier.optional(),
         })
-        .default({} as never),
+        .prefault({}),
       /** A jsonb column holding features as keys; features then name a `key`. */
       featuresColumn: identifier.optional(),
       /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
@@ -233,7 +233,7 @@ export const ConfigSchema = z
         /** Fewest baseline days with data before drift checks run. */
         minDays: positiveInt.default(1),
       })
-      .default({} as never),
+      .prefault({}),
     thresholds: ThresholdsSchema,
     alerting: z
       .strictObject({
@@ -245,11 +245,11 @@ export const ConfigSchema = z
             within_list: positiveInt.default(1),
             dataset: positiveInt.default(1),
           })
-          .default({} as never),
+          .prefault({}),
         /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */
         alertmanagerUrl: z.url().optional(),
       })
-      .default({} as never),
+      .prefault({}),
     schedule: z
       .strictObject({
         /** node-cron expression (5 or 6 fields). Default 06:30 every day. */
@@ -271,20 +271,20 @@ export const ConfigSchema = z
             /** After this long past the scheduled time, a missing day becomes a critical finding. */
             deadlineMinutes: positiveInt.default(360),
           })
-          .default({} as never),
+          .prefault({}),
       })
-      .default({} as never),
+      .prefault({}),
     http: z
       .strictObject({
         host: z.string().default('127.0.0.1'),
         port: z.number().int().min(0).max(65535).default(9467),
       })
-      .default({} as never),
+      .prefault({}),
     store: z
       .strictObject({
         schema: identifier.default('plumbline'),
       })
-      .default({} as never),
+      .prefault({}),
   })
   .superRefine((c, ctx) => {
     const seen = new Map<string, number>();
