@@ -6,11 +6,12 @@ import type { Config } from '../config/index.ts';
 import type { DayColumns } from '../source/index.ts';
 import { NULL_POSITION } from '../source/index.ts';
 import {
-  binCounts,
+  binCountsSorted,
   distinctCountSorted,
   isFlatList,
   listAggregate,
   qualityCounts,
+  radixSortedCopy,
   ruleViolated,
   type BinSpec,
   type QualityCounts,
@@ -35,7 +36,8 @@ export function groupByList(listOf: Int32Array, lists: number): ListGrouping {
   }
   for (let l = 0; l < lists; l++) start[l + 1]! += start[l]!;
   const fill = start.slice(0, lists);
-  const order = new Int32Array(start[lists]!);
+  // Shared so that worker threads can read the grouping without a copy.
+  const order = new Int32Array(new SharedArrayBuffer(4 * start[lists]!));
   for (let i = 0; i < listOf.length; i++) {
     const l = listOf[i]!;
     if (l >= 0) order[fill[l]!++] = i;
@@ -117,30 +119,28 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
   };
 }
 
-function numericProfile(
-  cols: DayColumns,
+/** The profile of one numeric feature: what a worker thread computes for its share of the features. */
+export function numericProfile(
+  values: Float64Array,
+  missing: Uint8Array | null,
+  lists: number,
   g: ListGrouping,
-  fi: number,
   feature: Config['features'][number],
   bins: BinSpec | undefined,
 ): NumericProfile {
-  const values = cols.numeric[fi]!;
-  const missing = cols.missing[fi] ?? null;
   const quality = qualityCounts(values, missing, feature.range);
 
-  let finite = 0;
-  for (let i = 0; i < values.length; i++) if (Number.isFinite(values[i]!)) finite++;
-  const sorted = new Float64Array(finite);
+  const finite = new Float64Array(quality.finite);
   let k = 0;
   let sum = 0;
   for (let i = 0; i < values.length; i++) {
     const v = values[i]!;
     if (Number.isFinite(v)) {
-      sorted[k++] = v;
+      finite[k++] = v;
       sum += v;
     }
   }
-  sorted.sort();
+  const sorted = radixSortedCopy(finite);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -150,7 +150,7 @@ function numericProfile(
     let flatLists = 0;
     let ruleViolations = 0;
     let scratch = new Float64Array(64);
-    for (let l = 0; l < cols.lists; l++) {
+    for (let l = 0; l < lists; l++) {
       const a = g.start[l]!;
       const b = g.start[l + 1]!;
       if (b - a < 2) continue;
@@ -170,7 +170,7 @@ function numericProfile(
     binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
     sortedSample: sorted,
     distinct: distinctCountSorted(sorted),
-    mean: finite > 0 ? sum / finite : null,
+    mean: k > 0 ? sum / k : null,
     withinList,
   };
 }
@@ -181,7 +181,7 @@ function numericProfile(
  * NaN, type errors). Scaling lets a capped sample stand for all its day's rows.
  */
 export function countsOverBins(bins: BinSpec, sortedFinite: Float64Array, q: QualityCounts): number[] {
-  const counts = Array.from(binCounts(bins, sortedFinite));
+  const counts = Array.from(binCountsSorted(bins, sortedFinite));
   const sampleTotal = sortedFinite.length;
   const scale = sampleTotal > 0 ? q.finite / sampleTotal : 0;
   for (let i = 0; i < counts.length; i++) counts[i] = counts[i]! * scale;
@@ -232,20 +232,42 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
   return { kind: 'categorical', quality, categories, distinct: col.dictionary.length, withinList };
 }
 
+/**
+ * Computes numeric feature profiles, possibly on other threads. Given the feature indexes
+ * to profile, returns their profiles in the same order.
+ */
+export type NumericProfiler = (cols: DayColumns, g: ListGrouping, indexes: number[], config: Config, bins: Record<string, BinSpec> | null) => Promise<NumericProfile[]>;
+
+/** Profiles every numeric feature on this thread. */
+export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, config, bins) =>
+  indexes.map((fi) => {
+    const f = config.features[fi]!;
+    return numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name]);
+  });
+
 /** The profile of one day; `bins` (the baseline's) fill in binCounts when given. */
-export function buildDayProfile(cols: DayColumns, config: Config, bins: Record<string, BinSpec> | null): DayProfile {
+export async function buildDayProfile(cols: DayColumns, config: Config, bins: Record<string, BinSpec> | null, profiler: NumericProfiler = profileOnThisThread): Promise<DayProfile> {
   const g = groupByList(cols.listOf, cols.lists);
   const features: Record<string, FeatureProfile> = {};
+  const numeric = config.features.map((f, fi) => (f.kind === 'categorical' ? -1 : fi)).filter((fi) => fi >= 0);
+  const numericProfiles = profiler(cols, g, numeric, config, bins);
+  const dataset = datasetCounts(cols, g);
   config.features.forEach((f, fi) => {
-    features[f.name] = f.kind === 'categorical' ? categoricalProfile(cols, g, fi, f) : numericProfile(cols, g, fi, f, bins?.[f.name]);
+    if (f.kind === 'categorical') features[f.name] = categoricalProfile(cols, g, fi, f);
   });
+  (await numericProfiles).forEach((p, i) => {
+    features[config.features[numeric[i]!]!.name] = p;
+  });
+  // Keep the config's feature order.
+  const ordered: Record<string, FeatureProfile> = {};
+  for (const f of config.features) ordered[f.name] = features[f.name]!;
   return {
     date: cols.date,
-    dataset: datasetCounts(cols, g),
+    dataset,
     totalRows: cols.totalRows,
     // A sampled day keeps whole lists, so lists scale like rows.
     totalLists: cols.sampled && cols.rows > 0 ? Math.round((cols.lists * cols.totalRows) / cols.rows) : cols.lists,
     sampled: cols.sampled,
-    features,
+    features: ordered,
   };
 }

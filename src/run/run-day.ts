@@ -11,7 +11,7 @@ import { applyAlertState, evaluateDay, snapshotMissingFinding } from '../checks/
 import type { Config } from '../config/index.ts';
 import { withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { errorFields, type Logger } from '../log.ts';
-import { buildDayProfile, capDayProfile, mergeBaseline, type BaselineProfile, type DayProfile } from '../profile/index.ts';
+import { buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
 import { checkJsonbKeys, countDays, planSource, readDay, type SourcePlan } from '../source/index.ts';
 import { baselineDates } from './dates.ts';
@@ -70,8 +70,12 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
 }
 
 async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null): Promise<DayProfile> {
+  const t0 = performance.now();
   const cols = await withReadOnlyTransaction(deps.source, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
-  return buildDayProfile(cols, deps.config, bins);
+  const t1 = performance.now();
+  const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
+  deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
+  return profile;
 }
 
 /** Loads the baseline of a window from the store, or builds it from stored day profiles and the source. */
@@ -123,19 +127,25 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
       await checkJsonbKeys(client, deps.config, p);
       return p;
     });
+    const tBaseline = performance.now();
     const baseline = await ensureBaseline(deps, plan, runDate);
+    deps.log.debug('baseline ready', { runDate, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
     const current = await readProfile(deps, plan, runDate, baseline.bins);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
+    const tSave = performance.now();
     await deps.store.saveDayProfile(profileFingerprint(deps.config), capDayProfile(current, daySampleCap(deps.config)));
+    deps.log.debug('day profile stored', { runDate, seconds: (performance.now() - tSave) / 1000 });
 
     const drafts = evaluateDay(deps.config, baseline, current);
     const previous = await deps.store.previousFindings(runDate);
     const findings = applyAlertState(deps.config, runDate, drafts, previous?.findings ?? null);
     const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings);
     throwIfAborted(deps.signal);
+    const tRun = performance.now();
     await deps.store.saveRun(report);
+    deps.log.debug('run stored', { runDate, seconds: (performance.now() - tRun) / 1000 });
     const durationSeconds = (Date.parse(report.finishedAt) - started.getTime()) / 1000;
     deps.log.info('run completed', { runDate, status: report.status, findings: findings.length, durationSeconds });
     return { report, durationSeconds };

@@ -1,2 +1,2 @@
 export { planSource, checkJsonbKeys, type SourcePlan, type FeaturePlan } from './plan.ts';
-export { readDay, countDays, NULL_POSITION, PRESENT, NULL_VALUE, TYPE_ERROR, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
+export { readDay, countDays, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';

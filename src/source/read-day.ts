@@ -8,13 +8,13 @@ import { Writable } from 'node:stream';
 import { to as copyTo } from 'pg-copy-streams';
 import type { PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
+import { MISSING_NULL, MISSING_TYPE_ERROR } from '../stats/index.ts';
 import { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
 import type { SourcePlan } from './plan.ts';
 
-/** Row-level missing codes, shared with stats/quality. */
-export const PRESENT = 0;
-export const NULL_VALUE = 1;
-export const TYPE_ERROR = 2;
+/** Row-level missing codes, as stats/quality counts them. */
+const NULL_VALUE = MISSING_NULL;
+const TYPE_ERROR = MISSING_TYPE_ERROR;
 
 export interface CategoricalColumn {
   codes: Int32Array; // -1 for null
@@ -72,30 +72,58 @@ function parseJsonNumber(buf: Buffer, start: number, length: number): number | n
   return Number.isNaN(v) ? undefined : v;
 }
 
+const enum Col {
+  ListId,
+  ItemId,
+  Position,
+  Label,
+  Float8,
+  Json,
+  Text,
+}
+
 class DaySink implements TupleSink {
   row = 0;
   readonly listIds = new Map<number, number>();
   readonly categoryCodes: (Map<string, number> | null)[];
-  private readonly featureColumn: number[];
-  private readonly labelColumn: number;
-  private readonly firstFeatureColumn: number;
+  /** Per COPY column: what it is, and for features the config feature index. */
+  private readonly kind: Col[];
+  private readonly feature: number[];
 
   constructor(
-    private readonly plan: SourcePlan,
+    plan: SourcePlan,
     private readonly out: DayColumns,
   ) {
-    this.labelColumn = plan.hasLabel ? 3 : -1;
-    this.firstFeatureColumn = plan.hasLabel ? 4 : 3;
-    this.featureColumn = plan.features.map((f) => f.index);
+    this.kind = [Col.ListId, Col.ItemId, Col.Position];
+    this.feature = [-1, -1, -1];
+    if (plan.hasLabel) {
+      this.kind.push(Col.Label);
+      this.feature.push(-1);
+    }
+    for (const f of plan.features) {
+      this.kind.push(f.decoder === 'float8' ? Col.Float8 : f.decoder === 'jsontext' ? Col.Json : Col.Text);
+      this.feature.push(f.index);
+    }
     this.categoryCodes = out.categorical.map((c) => (c === null ? null : new Map()));
   }
 
   field(column: number, buf: Buffer, start: number, length: number): void {
     const row = this.row;
     const isNull = start < 0;
-    if (column === 0) {
-      if (isNull) this.out.listOf[row] = -1;
-      else {
+    switch (this.kind[column]) {
+      case Col.Float8: {
+        if (isNull) {
+          const fi = this.feature[column]!;
+          this.out.numeric[fi]![row] = Number.NaN;
+          this.markMissing(fi, row, NULL_VALUE);
+        } else this.out.numeric[this.feature[column]!]![row] = buf.readDoubleBE(start);
+        return;
+      }
+      case Col.ListId: {
+        if (isNull) {
+          this.out.listOf[row] = -1;
+          return;
+        }
         const h = hashBytes(buf, start, length);
         let idx = this.listIds.get(h);
         if (idx === undefined) {
@@ -103,47 +131,46 @@ class DaySink implements TupleSink {
           this.listIds.set(h, idx);
         }
         this.out.listOf[row] = idx;
-      }
-    } else if (column === 1) {
-      this.out.itemHash[row] = isNull ? Number.NaN : hashBytes(buf, start, length);
-    } else if (column === 2) {
-      this.out.position[row] = isNull ? NULL_POSITION : buf.readInt32BE(start);
-    } else if (column === this.labelColumn) {
-      this.out.label![row] = isNull ? Number.NaN : buf.readDoubleBE(start);
-    } else {
-      const fi = this.featureColumn[column - this.firstFeatureColumn]!;
-      const decoder = this.plan.decoders[column];
-      if (decoder === 'text') {
-        const cat = this.out.categorical[fi]!;
-        if (isNull) cat.codes[row] = -1;
-        else {
-          const value = buf.toString('utf8', start, start + length);
-          const codes = this.categoryCodes[fi]!;
-          let code = codes.get(value);
-          if (code === undefined) {
-            code = cat.dictionary.length;
-            codes.set(value, code);
-            cat.dictionary.push(value);
-          }
-          cat.codes[row] = code;
-        }
         return;
       }
-      const values = this.out.numeric[fi]!;
-      if (isNull) {
-        values[row] = Number.NaN;
-        this.markMissing(fi, row, NULL_VALUE);
-      } else if (decoder === 'float8') {
-        values[row] = buf.readDoubleBE(start);
-      } else {
-        const v = parseJsonNumber(buf, start, length);
+      case Col.ItemId:
+        this.out.itemHash[row] = isNull ? Number.NaN : hashBytes(buf, start, length);
+        return;
+      case Col.Position:
+        this.out.position[row] = isNull ? NULL_POSITION : buf.readInt32BE(start);
+        return;
+      case Col.Label:
+        this.out.label![row] = isNull ? Number.NaN : buf.readDoubleBE(start);
+        return;
+      case Col.Json: {
+        const fi = this.feature[column]!;
+        const v = isNull ? null : parseJsonNumber(buf, start, length);
         if (v === null) {
-          values[row] = Number.NaN;
+          this.out.numeric[fi]![row] = Number.NaN;
           this.markMissing(fi, row, NULL_VALUE);
         } else if (v === undefined) {
-          values[row] = Number.NaN;
+          this.out.numeric[fi]![row] = Number.NaN;
           this.markMissing(fi, row, TYPE_ERROR);
-        } else values[row] = v;
+        } else this.out.numeric[fi]![row] = v;
+        return;
+      }
+      case Col.Text: {
+        const fi = this.feature[column]!;
+        const cat = this.out.categorical[fi]!;
+        if (isNull) {
+          cat.codes[row] = -1;
+          return;
+        }
+        const value = buf.toString('utf8', start, start + length);
+        const codes = this.categoryCodes[fi]!;
+        let code = codes.get(value);
+        if (code === undefined) {
+          code = cat.dictionary.length;
+          codes.set(value, code);
+          cat.dictionary.push(value);
+        }
+        cat.codes[row] = code;
+        return;
       }
     }
   }
@@ -151,14 +178,15 @@ class DaySink implements TupleSink {
   private markMissing(fi: number, row: number, code: number): void {
     let m = this.out.missing[fi];
     if (m === null || m === undefined) {
-      m = new Uint8Array(this.out.numeric[fi]!.length);
+      // Shared, like the values, so worker threads read it without a copy.
+      m = new Uint8Array(new SharedArrayBuffer(this.out.numeric[fi]!.length));
       this.out.missing[fi] = m;
     }
     m[row] = code;
   }
 
   endTuple(): void {
-    this.row++;
+    if (++this.row > this.out.rows) throw new DataError(`the source returned more rows for ${this.out.date} than it counted (${this.out.rows}); is it being written to?`);
   }
 }
 
@@ -208,7 +236,8 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   };
   for (const f of plan.features) {
     if (f.decoder === 'text') out.categorical[f.index] = { codes: new Int32Array(rows), dictionary: [] };
-    else out.numeric[f.index] = new Float64Array(rows);
+    // SharedArrayBuffer: worker threads profile these columns without copying them.
+    else out.numeric[f.index] = new Float64Array(new SharedArrayBuffer(rows * 8));
   }
   if (rows === 0) return out;
 
@@ -218,13 +247,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
   const sink = new DaySink(plan, out);
-  const parser = new CopyBinaryParser(plan.selectList.length, {
-    field: (c, b, s, l) => {
-      if (sink.row >= rows) throw new DataError(`the source returned more rows for ${date} than it counted (${rows}); is it being written to?`);
-      sink.field(c, b, s, l);
-    },
-    endTuple: () => sink.endTuple(),
-  });
+  const parser = new CopyBinaryParser(plan.selectList.length, sink);
   const stream = client.query(copyTo(sql));
   await pipeline(
     stream,

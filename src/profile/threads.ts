@@ -1,0 +1,66 @@
+/**
+ * Profiling a big day on more than one core. Sorting every numeric column dominates a
+ * run (DESIGN.md: sorting 50 features costs more than moving them), and the features are
+ * independent, so they are split between this thread and worker threads. Small days stay
+ * on this thread: starting a worker costs more than it saves there.
+ */
+import { availableParallelism } from 'node:os';
+import { extname } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { Worker } from 'node:worker_threads';
+import type { NumericProfile } from './types.ts';
+import { profileOnThisThread, type NumericProfiler } from './day.ts';
+import type { ProfileRequest } from './worker.ts';
+
+/** Rows below which a day is profiled on one thread. */
+export const PARALLEL_MIN_ROWS = 200_000;
+
+// The worker has the same extension as this module: .ts under tsx, .js in the build.
+const WORKER_URL = new URL(`./worker${extname(fileURLToPath(import.meta.url))}`, import.meta.url);
+
+function runWorker(req: ProfileRequest): Promise<NumericProfile[]> {
+  return new Promise((resolve, reject) => {
+    // Under tsx the worker must register the TypeScript loader itself (hooks are per thread).
+    const worker = WORKER_URL.pathname.endsWith('.ts')
+      ? new Worker(`import('tsx/esm/api').then((m) => { m.register(); return import(${JSON.stringify(WORKER_URL.href)}); })`, { eval: true })
+      : new Worker(WORKER_URL);
+    worker.once('message', (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }) => {
+      void worker.terminate();
+      if (msg.ok) resolve(msg.profiles);
+      else reject(new Error(`profile worker failed: ${msg.error}`));
+    });
+    worker.once('error', (err) => {
+      void worker.terminate();
+      reject(err);
+    });
+    worker.postMessage(req);
+  });
+}
+
+/**
+ * A profiler that uses up to `threads` threads (default: the machine's cores). Features
+ * are dealt round-robin, the first share on this thread.
+ */
+export function threadedProfiler(threads: number = availableParallelism()): NumericProfiler {
+  return async (cols, g, indexes, config, bins) => {
+    if (threads <= 1 || cols.rows < PARALLEL_MIN_ROWS || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
+    const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
+    indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
+    const remote = shares.slice(1).map((share) =>
+      runWorker({
+        lists: cols.lists,
+        grouping: g,
+        jobs: share.map((fi) => {
+          const feature = config.features[fi]!;
+          return { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+        }),
+      }),
+    );
+    const local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+    const results = new Map<number, NumericProfile>();
+    shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
+    const done = await Promise.all(remote);
+    shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
+    return indexes.map((fi) => results.get(fi)!);
+  };
+}

@@ -1,0 +1,148 @@
+/**
+ * Two-sample Kolmogorov-Smirnov test: the statistic by a sorted merge, and its two-sided
+ * p-value (exact lattice-path distribution for small samples, Kolmogorov's limit for large).
+ * simple-statistics has no Kolmogorov-Smirnov test, so it is written here.
+ */
+import { StatsInputError } from './errors.ts';
+import { kolmogorovSurvival } from './kolmogorov.ts';
+import { ks2ExactSurvival } from './ksexact.ts';
+import { radixSortedCopy } from './sort.ts';
+import { requireInteger, requireSortedFinite } from './validate.ts';
+
+export { kolmogorovSurvival } from './kolmogorov.ts';
+
+export interface KsResult {
+  d: number;
+  n: number;
+  m: number;
+  pValue: number;
+  method: 'exact' | 'asymptotic';
+}
+
+export type KsMethod = 'auto' | 'exact' | 'asymptotic';
+
+/**
+ * Largest sample size for which method 'auto' uses the exact distribution: exact when
+ * max(n, m) <= 10000, asymptotic above (the same default as SciPy's ks_2samp). The exact
+ * computation stays well under a second at n = m = 10000 (tests/bench/stats.bench.ts).
+ */
+export const KS_EXACT_AUTO_MAX_N = 10_000;
+
+function ks2Merge(fn: string, a: Float64Array, b: Float64Array): { d: number; n: number; m: number } {
+  const n = a.length;
+  const m = b.length;
+  if (n === 0 || m === 0) throw new StatsInputError(`${fn} requires at least one value in each sample`);
+  requireSortedFinite(fn, 'the first sample', a);
+  requireSortedFinite(fn, 'the second sample', b);
+  let i = 0;
+  let j = 0;
+  let d = 0;
+  while (i < n && j < m) {
+    const av = a[i];
+    const bv = b[j];
+    const v = av <= bv ? av : bv;
+    // Advance both samples over every copy of v before comparing the ECDFs (ties).
+    while (i < n && a[i] === v) i++;
+    while (j < m && b[j] === v) j++;
+    const diff = Math.abs(i / n - j / m);
+    if (diff > d) d = diff;
+  }
+  // Once one sample is used up its ECDF is 1 and the gap only shrinks: nothing left to see.
+  return { d, n, m };
+}
+
+/**
+ * Two-sample Kolmogorov-Smirnov statistic of two sorted samples.
+ *
+ * What: D = sup_x |F_a(x) - F_b(x)|, the largest gap between the two empirical CDFs.
+ * Ties (equal values within or across samples) are handled by stepping both ECDFs over all
+ * copies of a value before comparing, so D is evaluated only at ECDF values that exist.
+ *
+ * Why: a distribution-free measure of how far the current day's values moved from the
+ * baseline; the caller can reuse the stored sorted baseline sample and avoid sorting twice.
+ *
+ * Cost: O(n + m) merge plus an O(n + m) check that both inputs are sorted and finite.
+ *
+ * Example: ks2Sorted(Float64Array.of(1, 2, 3), Float64Array.of(2, 3, 4, 5)) => { d: 0.5, n: 3, m: 4 }
+ *
+ * Source: Smirnov, N. (1939), On the estimation of the discrepancy between empirical curves
+ * of distribution for two independent samples, Bull. Math. Univ. Moscou 2(2): 3-14.
+ *
+ * @param a first sample, sorted ascending, finite values, at least one
+ * @param b second sample, sorted ascending, finite values, at least one
+ */
+export function ks2Sorted(a: Float64Array, b: Float64Array): { d: number; n: number; m: number } {
+  return ks2Merge('ks2Sorted', a, b);
+}
+
+/**
+ * Two-sided p-value of the two-sample Kolmogorov-Smirnov statistic.
+ *
+ * What: P(D_{n,m} >= d) under the null hypothesis that both samples come from one
+ * continuous distribution.
+ * - 'exact': the exact distribution by lattice-path counting (Hodges 1958), see
+ *   ks2ExactSurvival. With ties in the data the exact null distribution of continuous data
+ *   is still used (the test is then conservative).
+ * - 'asymptotic': Kolmogorov's limit distribution Q_KS(sqrt(en) * d) with
+ *   en = n m / (n + m). Note: SciPy's ks_2samp(method='asymp') instead evaluates the
+ *   one-sample finite-N distribution scipy.stats.kstwo.sf(d, round(en)); the two agree to
+ *   O(1/sqrt(en)) relative, closer as en grows.
+ * - 'auto' (default): exact when max(n, m) <= KS_EXACT_AUTO_MAX_N (10000), else asymptotic.
+ *
+ * Why: with a million rows every tiny shift is "significant", so status is decided on
+ * effect size and the p-value (adjusted with Benjamini-Hochberg across features) is a gate.
+ *
+ * Cost: asymptotic O(1); exact O(min(n m, 2 d n m + n + m)) time, O(max(n, m)) memory.
+ *
+ * Example: ksPValue(0.5, 3, 4, 'exact') => { pValue: 0.6571428571428571, method: 'exact' } (23 of 35 orderings)
+ *
+ * Source: Kolmogorov (1933) and Smirnov (1948) for the limit; Hodges, J. L. (1958), The
+ * significance probability of the Smirnov two-sample test, Arkiv for Matematik 3(5):
+ * 469-486, for the exact distribution.
+ */
+export function ksPValue(
+  d: number,
+  n: number,
+  m: number,
+  method: KsMethod = 'auto',
+): { pValue: number; method: 'exact' | 'asymptotic' } {
+  const fn = 'ksPValue';
+  requireInteger(fn, 'n', n, 1);
+  requireInteger(fn, 'm', m, 1);
+  if (!(d >= 0 && d <= 1 + 1e-12)) throw new StatsInputError(`${fn} requires a statistic d in [0, 1]; got ${String(d)}`);
+  if (method !== 'auto' && method !== 'exact' && method !== 'asymptotic') {
+    throw new StatsInputError(`${fn} requires method 'auto', 'exact' or 'asymptotic'; got ${String(method)}`);
+  }
+  const useExact = method === 'exact' || (method === 'auto' && Math.max(n, m) <= KS_EXACT_AUTO_MAX_N);
+  if (useExact) return { pValue: ks2ExactSurvival(d, n, m), method: 'exact' };
+  const en = (n * m) / (n + m);
+  return { pValue: kolmogorovSurvival(Math.sqrt(en) * d), method: 'asymptotic' };
+}
+
+/**
+ * Two-sample Kolmogorov-Smirnov test on unsorted samples.
+ *
+ * What: sorted copies of both samples (radixSortedCopy: a radix sort giving the numeric order
+ * of Float64Array.prototype.sort, 2-3 times faster on large columns), D with the merge of
+ * ks2Sorted, then the two-sided p-value with ksPValue. The inputs are not modified.
+ *
+ * Why: the one-call form for samples that are not sorted yet.
+ *
+ * Cost: O(n + m) time (radix sorts and merge), O(n + m) memory for the sorted copies and
+ * the sort's scratch. About 0.1-0.15 s of CPU for two samples of a million values on the
+ * project's machine, against 0.25-0.35 s with the built-in sort
+ * (tests/bench/stats.bench.ts).
+ *
+ * Example: ks2(Float64Array.of(3, 1, 2), Float64Array.of(5, 2, 4, 3)) => { d: 0.5, n: 3, m: 4, pValue: 0.657142..., method: 'exact' }
+ *
+ * Source: Smirnov (1939) for the statistic; see ksPValue for the p-value.
+ */
+export function ks2(a: Float64Array, b: Float64Array, options?: { method?: KsMethod }): KsResult {
+  if (a.length === 0 || b.length === 0) throw new StatsInputError('ks2 requires at least one value in each sample');
+  // radixSortedCopy gives the order of Float64Array.prototype.sort, 2-3 times faster on large columns.
+  const sa = radixSortedCopy(a);
+  const sb = radixSortedCopy(b);
+  const { d, n, m } = ks2Merge('ks2', sa, sb);
+  const p = ksPValue(d, n, m, options?.method ?? 'auto');
+  return { d, n, m, pValue: p.pValue, method: p.method };
+}

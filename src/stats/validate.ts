@@ -1,0 +1,46 @@
+/**
+ * Small input checks shared by the statistics files. Internal to `src/stats/`: not
+ * re-exported from index.ts.
+ */
+import { StatsInputError } from './errors.ts';
+
+/** Throws unless `x` is an integer >= `min`. */
+export function requireInteger(fn: string, name: string, x: number, min: number): void {
+  if (!Number.isInteger(x) || x < min) {
+    throw new StatsInputError(`${fn} requires ${name} to be an integer >= ${min}; got ${String(x)}`);
+  }
+}
+
+/** Throws unless `x` is a finite number >= 0. */
+export function requireNonNegative(fn: string, name: string, x: number): void {
+  if (!(Number.isFinite(x) && x >= 0)) {
+    throw new StatsInputError(`${fn} requires ${name} to be a finite number >= 0; got ${String(x)}`);
+  }
+}
+
+/**
+ * Throws unless `x` is sorted ascending and every value is finite. One pass, O(n).
+ * `!(x[i] >= x[i - 1])` is also true for NaN, so NaN anywhere is caught by the order test
+ * or, at the ends, by the finiteness test.
+ */
+export function requireSortedFinite(fn: string, name: string, x: ArrayLike<number>): void {
+  const n = x.length;
+  if (n === 0) return;
+  if (!Number.isFinite(x[0]) || !Number.isFinite(x[n - 1])) {
+    throw new StatsInputError(`${fn} requires finite values in ${name}`);
+  }
+  for (let i = 1; i < n; i++) {
+    if (!(x[i] >= x[i - 1])) {
+      if (Number.isNaN(x[i])) throw new StatsInputError(`${fn} requires finite values in ${name}; NaN at index ${i}`);
+      throw new StatsInputError(`${fn} requires ${name} sorted ascending; index ${i} is smaller than index ${i - 1}`);
+    }
+  }
+}
+
+/**
+ * simple-statistics declares `readonly number[]` parameters but only reads `length` and
+ * indexes, so typed arrays and other array-likes are safe to pass. This names the cast once.
+ */
+export function asReadonlyArray(x: ArrayLike<number>): readonly number[] {
+  return x as unknown as readonly number[];
+}
