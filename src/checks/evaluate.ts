@@ -23,8 +23,11 @@ import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './statu
 
 type FindingDraft = Omit<Finding, 'alert'>;
 
-/** How many moved bins a finding keeps as evidence. */
-const TOP_BINS = 5;
+/**
+ * How many bins a finding keeps as evidence, those that moved most first: every bin of a
+ * numeric feature (at most about 2 x baseline.bins), the top ones of a large categorical.
+ */
+const TOP_BINS = 24;
 
 function ratio(numerator: number, denominator: number): number {
   return denominator > 0 ? numerator / denominator : 0;

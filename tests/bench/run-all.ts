@@ -1,0 +1,13 @@
+/**
+ * `npm run bench`: every benchmark in turn; each prints its own figures. The run
+ * benchmark needs a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
+ * PLUMBLINE_TEST_DATABASE_URL) and says so when there is none.
+ */
+import { main as statsBench } from './stats.bench.ts';
+import { main as runBench } from './run.bench.ts';
+
+console.log('== statistics (tests/bench/stats.bench.ts)');
+statsBench();
+console.log('');
+console.log('== a daily run against PostgreSQL (tests/bench/run.bench.ts)');
+await runBench();
