@@ -132,16 +132,24 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
   it('leaves every stored result unchanged when a run fails midway (connection killed during the read)', async () => {
     const date = FAULTS[2]!.plan.date;
     const before = await rt.store.reportFor(date);
+    expect(before).not.toBeNull();
     const statsBefore = await rt.store.runStats();
-    // Kill the source connection as soon as it starts copying the day.
+    // A view that pauses before its rows, so the read is surely in flight when it is killed.
+    const slow = `${sourceSchema}.slow_impressions`;
+    await admin.query(`CREATE VIEW ${slow} AS SELECT i.* FROM ${table} i CROSS JOIN (SELECT pg_sleep(2)) AS pause`);
+    const slowConfig = { ...config, source: { ...config.source, table: slow } };
+    let killed = 0;
     const killer = setInterval(() => {
-      void admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name = 'plumbline-source' AND query LIKE 'COPY%'`);
-    }, 5);
+      void admin
+        .query<{ ok: boolean }>(`SELECT pg_terminate_backend(pid) AS ok FROM pg_stat_activity WHERE application_name = 'plumbline-source' AND query LIKE 'COPY%'`)
+        .then((r) => (killed += r.rows.filter((x) => x.ok).length));
+    }, 50);
     try {
-      await expect(runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, date)).rejects.toThrow();
+      await expect(runDay({ config: slowConfig, source: rt.source, store: rt.store, log: silentLogger }, date)).rejects.toThrow();
     } finally {
       clearInterval(killer);
     }
+    expect(killed).toBeGreaterThanOrEqual(1);
     expect(await rt.store.reportFor(date)).toEqual(before);
     const statsAfter = await rt.store.runStats();
     expect(statsAfter.failures).toBe(statsBefore.failures + 1);
