@@ -9,7 +9,8 @@
 import { createHash } from 'node:crypto';
 import { applyAlertState, evaluateDay, snapshotMissingFinding } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
-import { withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
+import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
+import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
 import { buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
@@ -65,13 +66,27 @@ export function daySampleCap(config: Config): number {
   return Math.max(2000, Math.ceil((2 * config.baseline.sampleSize) / days));
 }
 
+/**
+ * A read-only transaction on the source; database and connection failures become
+ * SourceError (exit code 3, "source unavailable"), config and data errors pass through.
+ */
+async function readSource<T>(deps: RunDeps, what: string, fn: (client: PoolClient) => Promise<T>): Promise<T> {
+  try {
+    return await withReadOnlyTransaction(deps.source, fn);
+  } catch (err) {
+    if (err instanceof ConfigError || err instanceof DataError || err instanceof SourceError) throw err;
+    const code = sqlState(err);
+    throw new SourceError(`${what} failed: ${(err as Error).message}${code !== undefined ? ` (SQLSTATE ${code})` : ''}`, { cause: err });
+  }
+}
+
 function throwIfAborted(signal: AbortSignal | undefined): void {
   if (signal?.aborted) throw signal.reason instanceof Error ? signal.reason : new Error('run aborted');
 }
 
 async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null): Promise<DayProfile> {
   const t0 = performance.now();
-  const cols = await withReadOnlyTransaction(deps.source, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
+  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
   const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
   deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
@@ -82,7 +97,7 @@ async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: 
 async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineProfile> {
   const { config, store, log } = deps;
   const wanted = baselineDates(config.baseline.window, runDate);
-  const rows = await withReadOnlyTransaction(deps.source, (c: PoolClient) => countDays(c, plan, wanted));
+  const rows = await readSource(deps, 'counting the baseline days', (c) => countDays(c, plan, wanted));
   const dates = wanted.filter((d) => (rows.get(d) ?? 0) > 0);
   const profileFp = profileFingerprint(config);
   // Late rows for a baseline day change its count, and with it the fingerprint.
@@ -122,7 +137,7 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
   const started = now();
   const fingerprint = configFingerprint(deps.config);
   try {
-    const plan = await withReadOnlyTransaction(deps.source, async (client) => {
+    const plan = await readSource(deps, 'checking the source against the config', async (client) => {
       const p = await planSource(client, deps.config);
       await checkJsonbKeys(client, deps.config, p);
       return p;
