@@ -137,7 +137,9 @@ export async function main(argv: string[]): Promise<number> {
       const path = configPath(values, rest);
       const config = loadConfigFile(path);
       process.stdout.write(`# ${path} is valid. Resolved, with defaults (fingerprint ${configFingerprint(config)}):\n`);
-      process.stdout.write(`${JSON.stringify(config, null, 2)}\n`);
+      // Secrets are masked wherever config is printed (an Alertmanager URL may carry credentials).
+      const shown = config.alerting.alertmanagerUrl === undefined ? config : { ...config, alerting: { ...config.alerting, alertmanagerUrl: maskUrl(config.alerting.alertmanagerUrl) } };
+      process.stdout.write(`${JSON.stringify(shown, null, 2)}\n`);
       const env = ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => `# ${k}: ${process.env[k] ? maskUrl(process.env[k]!) : process.env[`${k}_FILE`] ? `from file ${process.env[`${k}_FILE`]}` : '(not set)'}`);
       process.stdout.write(`${env.join('\n')}\n`);
       return EXIT.ok;

@@ -10,6 +10,7 @@ import { thinSorted, type BaselineProfile, type CategoricalProfile, type Dataset
 import type { BinEvidence, CheckName, Finding, Status } from '../report/contract.ts';
 import {
   benjaminiHochberg,
+  binCountsSorted,
   binLabels,
   categoryPsi,
   distinctCountSorted,
@@ -17,6 +18,7 @@ import {
   ksPValue,
   psi,
   psiNoiseFloor,
+  type BinSpec,
   type PsiResult,
 } from '../stats/index.ts';
 import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
@@ -174,8 +176,12 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
       });
     }
 
-    // Two-sample KS on the baseline sample and the day's values (binary features: PSI only).
-    if (f.kind === 'numeric' && cur.sortedSample.length > 0) {
+    // Pushdown engine: KS D from the day's counts over the baseline's fine bins, with its error bound.
+    const fine = ctx.baseline.fineBins?.[f.name];
+    if (f.kind === 'numeric' && cur.fineBinCounts !== undefined && fine !== undefined) {
+      if (q.finite > 0) ksQueue.push(binnedKsFinding(ctx, f, base, cur, fine, cur.fineBinCounts, out));
+    } else if (f.kind === 'numeric' && cur.sortedSample.length > 0) {
+      // Two-sample KS on the baseline sample and the day's values (binary features: PSI only).
       const { d, n, m } = ks2Sorted(base.sortedSample, cur.sortedSample);
       const p = ksPValue(d, n, m);
       const t = threshold(config, f, 'ks');
@@ -200,10 +206,81 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
   return out;
 }
 
+/**
+ * Two-sample Kolmogorov-Smirnov D over fine bins, when the day's values were counted into
+ * the baseline's fine bins in SQL (pushdown engine) instead of coming to Plumbline.
+ *
+ * What: both empirical CDFs are known exactly at every fine-bin boundary (the baseline's by
+ * counting its sorted sample into the same bins), so D_binned = max over boundaries of
+ * |F_baseline - F_current| never exceeds the exact D. Inside an interval bin each ECDF rises
+ * by at most that bin's share, so the exact D is at most D_binned + max over interval bins of
+ * max(baseline share, current share); a point-mass bin holds a single value and adds nothing.
+ * D_binned decides the status; the bound goes into the evidence.
+ *
+ * Cost: O(B) for B fine bins plus O(B log n) to count the baseline sample.
+ *
+ * Source: Smirnov (1939) for D; the bound follows from the monotonicity of both ECDFs.
+ */
+function binnedKsFinding(ctx: Context, f: FeatureConfig, base: NumericProfile, cur: NumericProfile, spec: BinSpec, counts: readonly number[], out: FindingDraft[]): { draft: FindingDraft; p: number } {
+  const baseCounts = binCountsSorted(spec, base.sortedSample);
+  if (baseCounts.length !== counts.length) throw new Error(`fine bins of ${f.name}: ${counts.length} day counts for ${baseCounts.length} bins`);
+  // Which bins are single points: the bin after each point-mass edge's open interval.
+  const singleton = new Uint8Array(counts.length);
+  let bin = 0;
+  spec.pointMass.forEach((pm) => {
+    bin++;
+    if (pm) singleton[bin++] = 1;
+  });
+  const n = base.sortedSample.length;
+  let m = 0;
+  for (const c of counts) m += c;
+  let cb = 0;
+  let cc = 0;
+  let d = 0;
+  let bound = 0;
+  for (let i = 0; i < counts.length; i++) {
+    cb += baseCounts[i]!;
+    cc += counts[i]!;
+    const gap = Math.abs(cb / n - cc / m);
+    if (gap > d) d = gap;
+    if (singleton[i] === 0) bound = Math.max(bound, baseCounts[i]! / n, counts[i]! / m);
+  }
+  const p = ksPValue(Math.min(1, d), n, m);
+  const t = threshold(ctx.config, f, 'ks');
+  const draft: FindingDraft = {
+    feature: f.name,
+    check: 'ks',
+    rule: null,
+    value: d,
+    score: d,
+    status: statusAbove(d, t),
+    thresholds: applied(t),
+    summary: '',
+    evidence: {
+      baseline: base.mean,
+      current: cur.mean,
+      n,
+      m,
+      pValue: p.pValue,
+      pValueMethod: p.method,
+      adjustedPValue: null,
+      ksMethod: 'binned',
+      fineBins: counts.length,
+      dErrorBound: bound,
+      dUpperBound: Math.min(1, d + bound),
+    },
+  };
+  out.push(draft);
+  return { draft, p: p.pValue };
+}
+
 function withinListFindings(ctx: Context, f: FeatureConfig, base: WithinListCounts | null, cur: WithinListCounts | null): FindingDraft[] {
   if (f.scope === 'list' || cur === null || cur.listsJudged === 0) return [];
   const out: FindingDraft[] = [];
-  const baseFlat = base !== null && ctx.hasBaseline ? ratio(base.flatLists, base.listsJudged) : 0;
+  // Increases are measured against whatever baseline there is (as for null_ratio): minDays
+  // gates the drift and count comparisons only, and a zero stand-in would page on every list
+  // that is flat by nature (a category shared by a whole list) until the window fills up.
+  const baseFlat = base !== null ? ratio(base.flatLists, base.listsJudged) : 0;
   out.push(
     increaseFinding(f.name, 'flat_list_ratio', 'lists where it does not vary:', ratio(cur.flatLists, cur.listsJudged), baseFlat, threshold(ctx.config, f, 'flat_list_ratio'), {
       flatLists: cur.flatLists,
@@ -213,7 +290,7 @@ function withinListFindings(ctx: Context, f: FeatureConfig, base: WithinListCoun
   if (f.withinList !== undefined) {
     const judged = cur.listsJudged - cur.flatLists;
     const baseJudged = base === null ? 0 : base.listsJudged - base.flatLists;
-    const baseRatio = base !== null && ctx.hasBaseline ? ratio(base.ruleViolations, baseJudged) : 0;
+    const baseRatio = base !== null ? ratio(base.ruleViolations, baseJudged) : 0;
     const finding = increaseFinding(
       f.name,
       'rule_violation_ratio',
@@ -338,11 +415,11 @@ function datasetFindings(ctx: Context): FindingDraft[] {
       });
     }
   }
-  const baseOr0 = (num: number, den: number): number => (ctx.hasBaseline ? ratio(num, den) : 0);
-  out.push(increaseFinding(null, 'duplicate_item_ratio', 'lists with a duplicated item:', ratio(cur.listsWithDuplicateItems, cur.lists), baseOr0(base.listsWithDuplicateItems, base.lists), th.duplicate_item_ratio, { lists: cur.listsWithDuplicateItems }));
-  out.push(increaseFinding(null, 'position_gap_ratio', 'lists with position gaps:', ratio(cur.listsWithPositionGaps, cur.lists), baseOr0(base.listsWithPositionGaps, base.lists), th.position_gap_ratio, { lists: cur.listsWithPositionGaps }));
-  out.push(increaseFinding(null, 'null_list_id_ratio', 'rows without a list id:', ratio(cur.nullListIdRows, cur.rows), baseOr0(base.nullListIdRows, base.rows), th.null_list_id_ratio, { rows: cur.nullListIdRows }));
-  out.push(increaseFinding(null, 'singleton_list_ratio', 'lists of one item:', ratio(cur.singletonLists, cur.lists), baseOr0(base.singletonLists, base.lists), th.singleton_list_ratio, { lists: cur.singletonLists }));
+  // Increases over the baseline's rate, even below minDays (see withinListFindings); the rate is 0 without any baseline day.
+  out.push(increaseFinding(null, 'duplicate_item_ratio', 'lists with a duplicated item:', ratio(cur.listsWithDuplicateItems, cur.lists), ratio(base.listsWithDuplicateItems, base.lists), th.duplicate_item_ratio, { lists: cur.listsWithDuplicateItems }));
+  out.push(increaseFinding(null, 'position_gap_ratio', 'lists with position gaps:', ratio(cur.listsWithPositionGaps, cur.lists), ratio(base.listsWithPositionGaps, base.lists), th.position_gap_ratio, { lists: cur.listsWithPositionGaps }));
+  out.push(increaseFinding(null, 'null_list_id_ratio', 'rows without a list id:', ratio(cur.nullListIdRows, cur.rows), ratio(base.nullListIdRows, base.rows), th.null_list_id_ratio, { rows: cur.nullListIdRows }));
+  out.push(increaseFinding(null, 'singleton_list_ratio', 'lists of one item:', ratio(cur.singletonLists, cur.lists), ratio(base.singletonLists, base.lists), th.singleton_list_ratio, { lists: cur.singletonLists }));
   if (config.source.columns.label !== undefined && cur.labelRows > 0) {
     const curRate = ratio(cur.labelPositives, cur.labelRows);
     const baseRate = ratio(base.labelPositives, base.labelRows);
@@ -361,7 +438,7 @@ function datasetFindings(ctx: Context): FindingDraft[] {
         evidence: { baseline: baseRate, current: curRate },
       });
     }
-    out.push(increaseFinding(null, 'no_positive_list_ratio', 'lists without a positive label:', ratio(cur.listsWithoutPositive, cur.lists), baseOr0(base.listsWithoutPositive, base.lists), th.no_positive_list_ratio));
+    out.push(increaseFinding(null, 'no_positive_list_ratio', 'lists without a positive label:', ratio(cur.listsWithoutPositive, cur.lists), ratio(base.listsWithoutPositive, base.lists), th.no_positive_list_ratio));
   }
   return out;
 }
@@ -403,6 +480,7 @@ export function evaluateDay(config: Config, baseline: BaselineProfile, current: 
       const t = draft.thresholds as { warn: number; critical: number };
       if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
       draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; warn >= ${t.warn}, critical >= ${t.critical}; adjusted p ${fmt(adj)})`;
+      if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
     });
   }
   findings.push(...datasetFindings(ctx));

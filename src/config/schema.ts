@@ -33,6 +33,18 @@ const isoDate = z
 
 const positiveInt = z.number().int().positive();
 
+function isRecord(v: unknown): v is Record<string, unknown> {
+  return typeof v === 'object' && v !== null && !Array.isArray(v);
+}
+
+/**
+ * zod skips a refinement once any other part of the object has failed, so a file with a
+ * wrong type somewhere would hide its duplicate names or misplaced rules until the next
+ * try. The cross-field checks therefore run whenever the value is a mapping at all, and
+ * one pass lists every problem.
+ */
+const everyProblem = { when: (payload: { value: unknown }): boolean => isRecord(payload.value) };
+
 function isTimeZone(tz: string): boolean {
   try {
     new Intl.DateTimeFormat('en-US', { timeZone: tz });
@@ -172,23 +184,31 @@ export const FeatureSchema = z
       .optional(),
     thresholds: FeatureThresholdOverrides,
   })
-  .superRefine((f, ctx) => {
-    if (f.column === undefined && f.key === undefined && !IDENTIFIER_PATTERN.test(f.name)) {
-      ctx.addIssue({ code: 'custom', message: 'this name is not a plain SQL identifier: give the column (or key) explicitly', path: ['column'] });
-    }
-    if (f.column !== undefined && f.key !== undefined) {
-      ctx.addIssue({ code: 'custom', message: 'give either column or key, not both', path: ['key'] });
-    }
-    if (f.scope === 'list' && f.withinList !== undefined) {
-      ctx.addIssue({ code: 'custom', message: 'a list-level feature is constant inside a list; a within-list rule cannot apply', path: ['withinList'] });
-    }
-    if (f.kind !== 'numeric' && f.withinList !== undefined) {
-      ctx.addIssue({ code: 'custom', message: 'within-list rules apply to numeric features only', path: ['withinList'] });
-    }
-    if (f.kind !== 'numeric' && f.range !== undefined) {
-      ctx.addIssue({ code: 'custom', message: 'a valid range applies to numeric features only', path: ['range'] });
-    }
-  });
+  .superRefine(
+    (parsed, ctx) => {
+      // Runs even when another setting of this feature is broken (see `everyProblem`), so
+      // `parsed` may hold raw input: every field is checked for its type before use.
+      const f = parsed as Record<string, unknown>;
+      const name = typeof f['name'] === 'string' ? f['name'] : undefined;
+      if (f['column'] === undefined && f['key'] === undefined && name !== undefined && !IDENTIFIER_PATTERN.test(name)) {
+        ctx.addIssue({ code: 'custom', message: 'this name is not a plain SQL identifier: give the column (or key) explicitly', path: ['column'] });
+      }
+      if (f['column'] !== undefined && f['key'] !== undefined) {
+        ctx.addIssue({ code: 'custom', message: 'give either column or key, not both', path: ['key'] });
+      }
+      if (f['scope'] === 'list' && f['withinList'] !== undefined) {
+        ctx.addIssue({ code: 'custom', message: 'a list-level feature is constant inside a list; a within-list rule cannot apply', path: ['withinList'] });
+      }
+      const nonNumeric = f['kind'] === 'binary' || f['kind'] === 'categorical';
+      if (nonNumeric && f['withinList'] !== undefined) {
+        ctx.addIssue({ code: 'custom', message: 'within-list rules apply to numeric features only', path: ['withinList'] });
+      }
+      if (nonNumeric && f['range'] !== undefined) {
+        ctx.addIssue({ code: 'custom', message: 'a valid range applies to numeric features only', path: ['range'] });
+      }
+    },
+    everyProblem,
+  );
 
 export type FeatureConfig = z.infer<typeof FeatureSchema>;
 
@@ -260,6 +280,11 @@ export const ConfigSchema = z
         lagDays: z.number().int().min(0).max(30).default(1),
         /** After an outage, run at most this many missed days, oldest first. */
         catchUpMaxDays: z.number().int().min(0).max(366).default(7),
+        /**
+         * Wait before retrying a failed run (`serve`), doubled after each further failure, at
+         * most one hour. Failures that are not connection trouble (bad config, a bug) wait 20 times as long.
+         */
+        retryBaseSeconds: z.number().positive().max(3600).default(15),
         readiness: z
           .strictObject({
             /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
@@ -286,17 +311,28 @@ export const ConfigSchema = z
       })
       .prefault({}),
   })
-  .superRefine((c, ctx) => {
-    const seen = new Map<string, number>();
-    c.features.forEach((f, i) => {
-      const prev = seen.get(f.name);
-      if (prev !== undefined) ctx.addIssue({ code: 'custom', message: `duplicate feature name (also features[${prev}])`, path: ['features', i, 'name'] });
-      seen.set(f.name, i);
-      if (f.key !== undefined && c.source.featuresColumn === undefined) {
-        ctx.addIssue({ code: 'custom', message: 'a key needs source.featuresColumn (the jsonb column)', path: ['features', i, 'key'] });
-      }
-    });
-  });
+  .superRefine(
+    (parsed, ctx) => {
+      // Runs even when other settings are broken (see `everyProblem`): raw input is possible.
+      const c = parsed as unknown as Record<string, unknown>;
+      const source = isRecord(c['source']) ? c['source'] : undefined;
+      const features = Array.isArray(c['features']) ? (c['features'] as unknown[]) : [];
+      const seen = new Map<string, number>();
+      features.forEach((f, i) => {
+        if (!isRecord(f)) return;
+        const name = f['name'];
+        if (typeof name === 'string') {
+          const prev = seen.get(name);
+          if (prev !== undefined) ctx.addIssue({ code: 'custom', message: `duplicate feature name (also features[${prev}])`, path: ['features', i, 'name'] });
+          else seen.set(name, i);
+        }
+        if (f['key'] !== undefined && source !== undefined && source['featuresColumn'] === undefined) {
+          ctx.addIssue({ code: 'custom', message: 'a key needs source.featuresColumn (the jsonb column)', path: ['features', i, 'key'] });
+        }
+      });
+    },
+    everyProblem,
+  );
 
 export type Config = z.infer<typeof ConfigSchema>;
 /** What the YAML file may say before defaults are applied. */

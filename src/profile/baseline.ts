@@ -61,9 +61,50 @@ function addWithinList(a: WithinListCounts | null, b: WithinListCounts | null): 
 export function capDayProfile(day: DayProfile, cap: number): DayProfile {
   const features: Record<string, FeatureProfile> = {};
   for (const [name, f] of Object.entries(day.features)) {
-    features[name] = f.kind === 'categorical' ? f : { ...f, binCounts: [], sortedSample: thinSorted(f.sortedSample, cap) };
+    if (f.kind === 'categorical') {
+      features[name] = f;
+      continue;
+    }
+    // Bin counts belong to one baseline's bins: a later baseline has bins of its own.
+    const { fineBinCounts: _fine, ...rest } = f;
+    features[name] = { ...rest, binCounts: [], sortedSample: thinSorted(f.sortedSample, cap) };
   }
   return { ...day, features };
+}
+
+/**
+ * Fine bins per numeric feature for the pushdown engine's binned Kolmogorov-Smirnov D:
+ * about a thousand baseline-quantile bins, so each holds about 0.1 % of the baseline, which
+ * bounds the error of D at about that much where the data are continuous.
+ */
+export const FINE_BINS = 1000;
+
+/**
+ * The union of two bin specs: every edge of either, a point mass where either has one. The
+ * result refines both (each of their bins is a union of its bins), so counts over it add up
+ * to counts over `coarse` exactly.
+ */
+export function refineBins(coarse: BinSpec, fine: BinSpec): BinSpec {
+  const mass = new Map<number, boolean>();
+  for (const spec of [coarse, fine]) spec.edges.forEach((e, i) => mass.set(e, (mass.get(e) ?? false) || spec.pointMass[i]!));
+  const edges = [...mass.keys()].sort((a, b) => a - b);
+  return { edges, pointMass: edges.map((e) => mass.get(e)!) };
+}
+
+/** Fine bins of one feature from its pooled baseline sample and its PSI bins. */
+export function fineBinsFromSorted(sortedSample: Float64Array, coarse: BinSpec): BinSpec {
+  return refineBins(coarse, binEdgesFromSorted(sortedSample, FINE_BINS));
+}
+
+/** The baseline with fine bins for every numeric feature (computed when a stored baseline predates them). */
+export function withFineBins(baseline: BaselineProfile): BaselineProfile {
+  if (baseline.fineBins !== undefined) return baseline;
+  const fineBins: Record<string, BinSpec> = {};
+  for (const [name, spec] of Object.entries(baseline.bins)) {
+    const f = baseline.features[name];
+    if (f !== undefined && f.kind !== 'categorical') fineBins[name] = fineBinsFromSorted(f.sortedSample, spec);
+  }
+  return { ...baseline, fineBins };
 }
 
 export interface BaselineOptions {
@@ -79,6 +120,8 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
   for (const d of days) dataset = addDataset(dataset, d.dataset);
 
   const bins: Record<string, BinSpec> = {};
+  const fineBins: Record<string, BinSpec> = {};
+  const pushdown = config.source.engine === 'pushdown';
   const features: Record<string, FeatureProfile> = {};
   for (const f of config.features) {
     const parts = days.map((d) => d.features[f.name]).filter((p): p is FeatureProfile => p !== undefined);
@@ -132,6 +175,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     const q = quality ?? emptyQuality();
     const spec = binEdgesFromSorted(merged, config.baseline.bins);
     bins[f.name] = spec;
+    if (pushdown) fineBins[f.name] = fineBinsFromSorted(merged, spec);
     features[f.name] = {
       kind: f.kind === 'binary' ? 'binary' : 'numeric',
       quality: q,
@@ -148,6 +192,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     days: days.map((d) => ({ date: d.date, rows: d.totalRows, lists: d.totalLists })),
     dataset,
     bins,
+    ...(pushdown ? { fineBins } : {}),
     features,
     sampleSize,
     createdAt: options.createdAt,

@@ -27,6 +27,11 @@ export interface NumericProfile {
   distinct: number;
   mean: number | null;
   withinList: WithinListCounts | null;
+  /**
+   * Pushdown engine only: counts of the day's finite values over the baseline's fine bins
+   * (BaselineProfile.fineBins). With it, KS D comes from the binned ECDFs, with an error bound.
+   */
+  fineBinCounts?: number[];
 }
 
 export interface CategoricalProfile {
@@ -76,6 +81,11 @@ export interface BaselineProfile {
   dataset: DatasetCounts;
   /** Bin edges per numeric feature, from the baseline sample's quantiles. */
   bins: Record<string, BinSpec>;
+  /**
+   * Pushdown engine only: about FINE_BINS quantile bins per numeric feature, refining `bins`,
+   * over which the day's values are counted in SQL for a binned Kolmogorov-Smirnov D.
+   */
+  fineBins?: Record<string, BinSpec>;
   features: Record<string, FeatureProfile>;
   sampleSize: number;
   createdAt: string;

@@ -9,7 +9,14 @@ export function isIsoDate(s: string): boolean {
   return !Number.isNaN(t) && new Date(t).toISOString().slice(0, 10) === s;
 }
 
+/**
+ * `date` plus a whole number of days, in UTC (no daylight-saving steps). Throws a RangeError
+ * for a date that does not exist: Date.parse rolls 2025-02-30 over to March 2, which would
+ * silently evaluate the wrong day.
+ */
 export function addDays(date: string, days: number): string {
+  if (!isIsoDate(date)) throw new RangeError(`addDays requires a date written YYYY-MM-DD; got ${JSON.stringify(date)}`);
+  if (!Number.isSafeInteger(days)) throw new RangeError(`addDays requires a whole number of days; got ${String(days)}`);
   return new Date(Date.parse(`${date}T00:00:00Z`) + days * DAY_MS).toISOString().slice(0, 10);
 }
 
@@ -24,7 +31,7 @@ export function dateRange(from: string, to: string): string[] {
 export function dateInZone(instant: Date, timeZone: string): string {
   const parts = new Intl.DateTimeFormat('en-CA', { timeZone, year: 'numeric', month: '2-digit', day: '2-digit' }).formatToParts(instant);
   const get = (t: string): string => parts.find((p) => p.type === t)?.value ?? '';
-  return `${get('year')}-${get('month')}-${get('day')}`;
+  return `${get('year').padStart(4, '0')}-${get('month')}-${get('day')}`;
 }
 
 /** The baseline dates for a run date, oldest first. */

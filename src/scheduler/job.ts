@@ -4,7 +4,8 @@
  * complete, and running them. It knows nothing of node-cron; tests call it directly.
  */
 import type { Config } from '../config/index.ts';
-import { quoteIdent, quoteQualified, withReadOnlyTransaction } from '../db/index.ts';
+import { describeRelation, quoteIdent, quoteQualified, withReadOnlyTransaction, type PoolClient } from '../db/index.ts';
+import { ConfigError } from '../errors.ts';
 import { errorFields } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { addDays, baselineDates, dateInZone, dateRange, recordMissingSnapshot, runDay, type RunDeps, type RunStore } from '../run/index.ts';
@@ -57,7 +58,8 @@ export async function checkReadiness(deps: RunDeps, date: string): Promise<Readi
     const counts = await countDays(client, plan, [date, ...baselineDates(config.baseline.window, date)]);
     const rows = counts.get(date) ?? 0;
     if (r.markerTable !== undefined) {
-      const res = await client.query(`SELECT 1 FROM ${quoteQualified(r.markerTable)} WHERE ${quoteIdent(r.markerDateColumn)} = $1::date LIMIT 1`, [date]);
+      const marker = await markerRelation(client, r.markerTable, r.markerDateColumn);
+      const res = await client.query(`SELECT 1 FROM ${marker} WHERE ${quoteIdent(r.markerDateColumn)} = $1::date LIMIT 1`, [date]);
       const ready = (res.rowCount ?? 0) > 0;
       return { ready, rows, reason: ready ? 'marker row present' : `no row for ${date} in ${r.markerTable} yet` };
     }
@@ -68,6 +70,23 @@ export async function checkReadiness(deps: RunDeps, date: string): Promise<Readi
     const ready = rows >= needed && rows > 0;
     return { ready, rows, reason: ready ? `${rows} rows (at least ${needed})` : `${rows} rows so far, waiting for ${needed} (${r.minRowFraction} x the baseline mean)` };
   });
+}
+
+/**
+ * The marker table, checked against the catalogue like every identifier from the config, so
+ * that a typo reads as a config problem with its path rather than as a failing query.
+ */
+async function markerRelation(client: PoolClient, table: string, dateColumn: string): Promise<string> {
+  const rel = await describeRelation(client, table);
+  if (rel === null) {
+    const msg = `schedule.readiness.markerTable: table or view "${table}" does not exist (or this role cannot see it)`;
+    throw new ConfigError(msg, [msg]);
+  }
+  if (!rel.columns.has(dateColumn)) {
+    const msg = `schedule.readiness.markerDateColumn: column "${dateColumn}" does not exist in ${rel.schema}.${rel.name}`;
+    throw new ConfigError(msg, [msg]);
+  }
+  return quoteQualified(`${rel.schema}.${rel.name}`);
 }
 
 export type DayOutcome =

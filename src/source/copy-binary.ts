@@ -11,8 +11,17 @@
  */
 import { DataError } from '../errors.ts';
 
+/** PostgreSQL 15 docs, COPY, "Binary Format", "File Header": the 11-byte signature `PGCOPY\n\377\r\n\0`. */
 const SIGNATURE = Buffer.from('PGCOPY\n\xff\r\n\0', 'latin1');
+/** Signature, then the 32-bit flags field and the 32-bit length of the header extension area (same section). */
 const HEADER_LENGTH = 19;
+/**
+ * Flags field (same section): bit 16 says OIDs are included, which adds a field this reader
+ * does not expect; bits 17-31 are reserved for format changes that are not backwards
+ * compatible, and "a reader should abort if it finds an unexpected bit set in this range".
+ * Bits 0-15 are reserved for backwards-compatible issues and may be ignored.
+ */
+const FLAGS_READER_MUST_ABORT = 0xffff0000;
 
 /** Receives each field of each tuple, in order; `buf` is valid only during the call. */
 export interface TupleSink {
@@ -33,7 +42,7 @@ export class CopyBinaryParser {
   ) {}
 
   push(chunk: Buffer): void {
-    let buf = this.pending === null ? chunk : Buffer.concat([this.pending, chunk]);
+    const buf = this.pending === null ? chunk : Buffer.concat([this.pending, chunk]);
     let pos = 0;
     if (!this.headerDone) {
       if (buf.length < HEADER_LENGTH) {
@@ -41,7 +50,10 @@ export class CopyBinaryParser {
         return;
       }
       if (!buf.subarray(0, 11).equals(SIGNATURE)) throw new DataError('COPY stream does not start with the binary COPY signature');
+      const flags = buf.readUInt32BE(11);
+      if ((flags & FLAGS_READER_MUST_ABORT) !== 0) throw new DataError(`COPY header has flags 0x${flags.toString(16)}: OIDs or a format this reader does not know`);
       const extension = buf.readInt32BE(15);
+      if (extension < 0) throw new DataError(`COPY header has a negative extension length (${extension})`);
       if (buf.length < HEADER_LENGTH + extension) {
         this.pending = buf;
         return;
@@ -50,11 +62,14 @@ export class CopyBinaryParser {
       this.headerDone = true;
     }
     const n = buf.length;
+    if (this.finished && pos < n) throw new DataError('COPY stream has data after its trailer');
     while (pos + 2 <= n) {
       const fieldCount = buf.readInt16BE(pos);
       if (fieldCount === -1) {
+        // File Trailer: a 16-bit word holding -1. Nothing may follow it.
         this.finished = true;
         pos += 2;
+        if (pos < n) throw new DataError('COPY stream has data after its trailer');
         break;
       }
       if (fieldCount !== this.columns) throw new DataError(`COPY tuple has ${fieldCount} fields, expected ${this.columns}`);
@@ -67,6 +82,7 @@ export class CopyBinaryParser {
           break;
         }
         const len = buf.readInt32BE(end);
+        if (len < -1) throw new DataError(`COPY field ${c} of tuple ${this.tuples + 1} has length ${len}`);
         end += 4 + (len > 0 ? len : 0);
         if (end > n) {
           complete = false;
@@ -89,11 +105,10 @@ export class CopyBinaryParser {
       pos = end;
     }
     this.pending = pos < n ? buf.subarray(pos) : null;
-    if (this.pending !== null && this.pending.length > 0 && this.pending.byteOffset === 0 && this.pending.buffer.byteLength > 4 * this.pending.length) {
+    if (this.pending !== null && this.pending.buffer.byteLength > 4 * this.pending.length) {
       // Do not keep a large chunk alive for a small remainder.
       this.pending = Buffer.from(this.pending);
     }
-    buf = Buffer.alloc(0);
   }
 
   end(): void {

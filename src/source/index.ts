@@ -1,2 +1,14 @@
 export { planSource, checkJsonbKeys, type SourcePlan, type FeaturePlan } from './plan.ts';
+export { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
 export { readDay, countDays, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
+export {
+  assemblePushdownProfile,
+  buildPushdownQueries,
+  preparePushdownSession,
+  readDayAggregates,
+  refinementMap,
+  widthBucketThresholds,
+  type DayAggregates,
+  type PushdownQueries,
+  type PushdownSpecs,
+} from './pushdown.ts';

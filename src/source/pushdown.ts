@@ -1,0 +1,428 @@
+/**
+ * The `pushdown` engine: the day's statistics are computed inside PostgreSQL and only
+ * aggregates come back (a few hundred rows at most, whatever the size of the day).
+ *
+ * Two aggregate statements run in the caller's REPEATABLE READ READ ONLY transaction:
+ *
+ * - the list pass groups the day by list id and reduces each list to a few flags (size,
+ *   duplicate items, position gaps, label counts, and per feature: judged / flat / rule
+ *   broken, decided in SQL with the same float8 arithmetic as stats/withinlist.ts), then
+ *   counts those flags by list size. The inner grouping is on the list id only, so on a
+ *   table partitioned by list id with partition-wise aggregation the whole inner query is
+ *   sent to the partitions (postgres_fdw ships it to the shards as one remote GROUP BY);
+ * - the value pass turns every row into one (feature, bin) pair per feature and counts
+ *   them: null, NaN, +-Infinity and type errors as codes of their own, finite values by
+ *   the bin they fall in (`width_bucket` over thresholds that reproduce assignBin exactly:
+ *   right-closed intervals, point masses), the out-of-range flag, category values, and
+ *   the sum / min / max of the finite values per bin.
+ *
+ * SQL text is built from quoted identifiers only; dates, jsonb keys, ranges, tolerances
+ * and bin thresholds are bound parameters (thresholds as float8[]).
+ *
+ * The DayProfile is then assembled from these exact counts and from a small whole-list
+ * sample of the day (read by the stream reader), which supplies the value sample that later
+ * baselines pool and the distinct-value checks use.
+ */
+import { featureSource, type Config, type FeatureConfig } from '../config/index.ts';
+import { quoteIdent, type PoolClient } from '../db/index.ts';
+import { DataError } from '../errors.ts';
+import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
+import type { BinSpec, QualityCounts } from '../stats/index.ts';
+import type { SourcePlan } from './plan.ts';
+
+/** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
+export interface PushdownSpecs {
+  /** The baseline's PSI bins per numeric feature, or null (a baseline day: no bins yet). */
+  bins: Record<string, BinSpec> | null;
+  /** Fine bins per numeric feature, refining `bins` (every PSI bin is a union of fine bins). */
+  fineBins: Record<string, BinSpec> | null;
+}
+
+export interface SqlStatement {
+  text: string;
+  values: unknown[];
+}
+
+export interface PushdownQueries {
+  listPass: SqlStatement;
+  valuePass: SqlStatement;
+}
+
+/** Exact counts of one numeric feature from the value pass. */
+export interface NumericAggregates {
+  quality: QualityCounts;
+  /** Counts of finite values per bin of the counting spec (fine bins when given, else the PSI bins); empty without a spec. */
+  counts: number[];
+  sum: number;
+  min: number | null;
+  max: number | null;
+}
+
+export interface DayAggregates {
+  dataset: DatasetCounts;
+  numeric: Record<string, NumericAggregates>;
+  categorical: Record<string, { rows: number; nulls: number; categories: Record<string, number> }>;
+  withinList: Record<string, WithinListCounts>;
+}
+
+/** Lists longer than this share the last list-size bin (the stream engine's MAX_LIST_SIZE_BIN). */
+const LIST_SIZE_BINS = 100;
+
+// Codes of the value pass for rows that have no finite value (bins are >= 0).
+const CODE_NULL = -1;
+const CODE_NAN = -2;
+const CODE_POS_INF = -3;
+const CODE_NEG_INF = -4;
+const CODE_TYPE_ERROR = -5;
+
+/** The next float64 above x (x finite). */
+export function nextUp(x: number): number {
+  if (x === 0) return Number.MIN_VALUE;
+  const view = new DataView(new ArrayBuffer(8));
+  view.setFloat64(0, x);
+  const bits = view.getBigUint64(0);
+  view.setBigUint64(0, x > 0 ? bits + 1n : bits - 1n);
+  return view.getFloat64(0);
+}
+
+/**
+ * Thresholds for `width_bucket(v, thresholds)` (the number of thresholds <= v) such that the
+ * result is assignBin(spec, v) for every finite v. A bin's values are the doubles from one
+ * threshold up to the next: a right-closed (prev, e] starts at nextUp(prev); a point mass
+ * [e, e] starts at e and the bin after it at nextUp(e).
+ */
+export function widthBucketThresholds(spec: BinSpec): number[] {
+  const t: number[] = [];
+  spec.edges.forEach((e, i) => {
+    if (spec.pointMass[i]) t.push(e);
+    t.push(nextUp(e));
+  });
+  return t;
+}
+
+/**
+ * For each bin of `fine`, the bin of `coarse` that holds it; throws when `fine` does not
+ * refine `coarse` (a fine bin straddling a coarse boundary).
+ */
+export function refinementMap(coarse: BinSpec, fine: BinSpec): number[] {
+  const tf = widthBucketThresholds(fine);
+  const tc = widthBucketThresholds(coarse);
+  const fineSet = new Set(tf);
+  for (const x of tc) {
+    if (!fineSet.has(x)) throw new DataError(`the fine bins do not refine the PSI bins (no fine boundary at ${x})`);
+  }
+  // Bin b of `fine` holds the doubles in [tf[b-1], tf[b]); its first double decides.
+  const count = (t: number[], v: number): number => {
+    let lo = 0;
+    let hi = t.length;
+    while (lo < hi) {
+      const mid = (lo + hi) >>> 1;
+      if (t[mid]! <= v) lo = mid + 1;
+      else hi = mid;
+    }
+    return lo;
+  };
+  return Array.from({ length: tf.length + 1 }, (_, b) => (b === 0 ? 0 : count(tc, tf[b - 1]!)));
+}
+
+class Params {
+  readonly values: unknown[] = [];
+  add(value: unknown, cast: string): string {
+    this.values.push(value);
+    return `$${this.values.length}::${cast}`;
+  }
+}
+
+interface FeatureSql {
+  feature: FeatureConfig;
+  /** float8 value (null when missing or not a number) or, for categorical features, text. */
+  value: string;
+  /** Boolean: a jsonb value that is not a number, boolean or null; null for wide columns. */
+  typeError: string | null;
+}
+
+function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: number, p: Params): FeatureSql {
+  const where = featureSource(f, config.source.featuresColumn);
+  if ('jsonbColumn' in where) {
+    const key = p.add(where.key, 'text');
+    if (f.kind === 'categorical') return { feature: f, value: `(${quoteIdent(where.jsonbColumn)} ->> ${key})`, typeError: null };
+    const j = `(${quoteIdent(where.jsonbColumn)} -> ${key})`;
+    // As the stream reader parses jsonb text: numbers, true/false as 1/0, null; anything else is a type error.
+    const value = `(CASE jsonb_typeof(${j}) WHEN 'number' THEN (${j})::float8 WHEN 'boolean' THEN (CASE WHEN ${j} = 'true'::jsonb THEN 1 ELSE 0 END)::float8 END)`;
+    return { feature: f, value, typeError: `(jsonb_typeof(${j}) IN ('string', 'object', 'array'))` };
+  }
+  const fp = plan.features.find((x) => x.index === index);
+  if (fp === undefined) throw new DataError(`feature ${f.name} is not in the source plan`);
+  return { feature: f, value: fp.expression, typeError: null };
+}
+
+/** PostgreSQL sorts NaN above every number, so "finite" must exclude it explicitly. */
+function finite(v: string): string {
+  return `(${v} > '-Infinity'::float8 AND ${v} < 'Infinity'::float8)`;
+}
+
+/** The rule of stats/withinlist.ts ruleViolated, on per-list aggregates, in float8. */
+function ruleSql(rule: NonNullable<FeatureConfig['withinList']>['rule'], a: { n: string; mn: string; mx: string; s: string; ss: string; d: string; c: string }, tol: string): string {
+  switch (rule) {
+    case 'minmax':
+      return `(abs(${a.mn}) > ${tol} OR abs(${a.mx} - 1) > ${tol})`;
+    case 'zscore': {
+      const varPop = `greatest(0::float8, (${a.ss} - (${a.s} * ${a.s}) / ${a.n}) / ${a.n})`;
+      return `(abs(${a.s} / ${a.n}) > ${tol} OR (abs(sqrt(${varPop}) - 1) > ${tol} AND abs(sqrt((${varPop} * ${a.n}) / (${a.n} - 1)) - 1) > ${tol}))`;
+    }
+    case 'rank':
+      return `(NOT (${a.mn} = 1 AND ${a.mx} = ${a.n} AND ${a.d} = ${a.c} AND abs(${a.s} - (${a.n} * (${a.n} + 1)) / 2) <= ${tol} * ${a.n}))`;
+    case 'sum_to_one':
+      return `(abs(${a.s} - 1) > ${tol} OR ${a.mn} < -${tol})`;
+  }
+}
+
+/** The counting spec of a numeric feature: its fine bins when given, else its PSI bins. */
+function countingSpec(specs: PushdownSpecs, name: string): BinSpec | undefined {
+  return specs.fineBins?.[name] ?? specs.bins?.[name];
+}
+
+/** Builds the two statements for one day (exported so tests can EXPLAIN exactly what runs). */
+export function buildPushdownQueries(config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): PushdownQueries {
+  if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
+  const cols = config.source.columns;
+  const listId = quoteIdent(cols.listId);
+  const item = `(${quoteIdent(cols.itemId)})::text`;
+  const pos = `(${quoteIdent(cols.position)})::int4`;
+
+  // ---- list pass
+  const lp = new Params();
+  const dateParam = lp.add(date, 'date');
+  const inner: string[] = [
+    `(${listId} IS NULL) AS nl`,
+    `count(*) AS n`,
+    `(count(${item}) <> count(DISTINCT ${item})) AS dup`,
+    // Positions must be n distinct consecutive integers starting at 0 or 1 (nulls are gaps).
+    `coalesce(count(${pos}) < count(*) OR count(DISTINCT ${pos}) < count(*) OR min(${pos}) NOT IN (0, 1) OR max(${pos})::int8 - min(${pos})::int8 <> count(*) - 1, true) AS gap`,
+  ];
+  if (plan.hasLabel) {
+    const y = plan.selectList[3]!;
+    inner.push(`count(*) FILTER (WHERE ${y} IS NOT NULL AND ${y} <> 'NaN'::float8) AS ly`, `count(*) FILTER (WHERE ${y} > 0 AND ${y} <> 'NaN'::float8) AS lp`);
+  } else {
+    inner.push('0::int8 AS ly', '0::int8 AS lp');
+  }
+  const wlNames: string[] = [];
+  config.features.forEach((f, i) => {
+    if (f.scope !== 'item') return;
+    // Parameters only for what the statement uses: an unused one has no type PostgreSQL can infer.
+    const fs = featureSql(config, plan, f, i, lp);
+    // code = judged + 2 * flat + 4 * rule broken (a flat list is not judged on the rule).
+    let code: string;
+    if (f.kind === 'categorical') {
+      code = `(CASE WHEN count(${fs.value}) >= 2 THEN 1 + CASE WHEN min(${fs.value}) = max(${fs.value}) THEN 2 ELSE 0 END ELSE 0 END)`;
+    } else {
+      const fin = finite(fs.value);
+      const a = {
+        c: `count(*) FILTER (WHERE ${fin})`,
+        n: `(count(*) FILTER (WHERE ${fin}))::float8`,
+        mn: `min(${fs.value}) FILTER (WHERE ${fin})`,
+        mx: `max(${fs.value}) FILTER (WHERE ${fin})`,
+        s: `sum(${fs.value}) FILTER (WHERE ${fin})`,
+        ss: `sum(${fs.value} * ${fs.value}) FILTER (WHERE ${fin})`,
+        d: `count(DISTINCT ${fs.value}) FILTER (WHERE ${fin})`,
+      };
+      const rule = f.withinList === undefined ? 'false' : ruleSql(f.withinList.rule, a, lp.add(f.withinList.tolerance, 'float8'));
+      code = `(CASE WHEN ${a.c} >= 2 THEN 1 + CASE WHEN ${a.mn} = ${a.mx} THEN 2 WHEN ${rule} THEN 4 ELSE 0 END ELSE 0 END)`;
+    }
+    inner.push(`${code} AS w${i}`);
+    wlNames.push(`w${i}`);
+  });
+  const sizeCap = lp.add(LIST_SIZE_BINS, 'int8');
+  const wl = wlNames.length === 0 ? `'{}'::int8[]` : `ARRAY[${wlNames.map((w) => `sum(${w} & 1), sum((${w} >> 1) & 1), sum(${w} >> 2)`).join(', ')}]::int8[]`;
+  const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows,
+       count(*) FILTER (WHERE dup) AS dup, count(*) FILTER (WHERE gap) AS gap,
+       sum(ly) AS ly, sum(lp) AS lp, count(*) FILTER (WHERE lp = 0) AS nopos,
+       ${wl} AS wl
+  FROM (SELECT ${inner.join(',\n               ')}
+          FROM ${plan.relation}
+         WHERE ${plan.dateColumn} = ${dateParam}
+         GROUP BY ${listId}) AS per_list
+ GROUP BY 1, 2`;
+
+  // ---- value pass
+  const vp = new Params();
+  const vDate = vp.add(date, 'date');
+  const vfeatures = config.features.map((f, i) => featureSql(config, plan, f, i, vp));
+  const rows = vfeatures.map((fs, i) => {
+    const f = fs.feature;
+    if (f.kind === 'categorical') return `(${i}, NULL::int4, false, ${fs.value}, NULL::float8)`;
+    const v = fs.value;
+    const spec = countingSpec(specs, f.name);
+    const bin = spec === undefined || spec.edges.length === 0 ? '0' : `width_bucket(${v}, ${vp.add(widthBucketThresholds(spec), 'float8[]')})`;
+    const missing = fs.typeError === null ? `${CODE_NULL}` : `(CASE WHEN ${fs.typeError} THEN ${CODE_TYPE_ERROR} ELSE ${CODE_NULL} END)`;
+    const code = `(CASE WHEN ${v} IS NULL THEN ${missing} WHEN ${v} = 'NaN'::float8 THEN ${CODE_NAN} WHEN ${v} = 'Infinity'::float8 THEN ${CODE_POS_INF} WHEN ${v} = '-Infinity'::float8 THEN ${CODE_NEG_INF} ELSE ${bin} END)`;
+    const bounds: string[] = [];
+    if (f.range?.min !== undefined) bounds.push(`${v} < ${vp.add(f.range.min, 'float8')}`);
+    if (f.range?.max !== undefined) bounds.push(`${v} > ${vp.add(f.range.max, 'float8')}`);
+    const oor = bounds.length === 0 ? 'false' : `coalesce(${finite(v)} AND (${bounds.join(' OR ')}), false)`;
+    return `(${i}, ${code}, ${oor}, NULL::text, CASE WHEN ${finite(v)} THEN ${v} END)`;
+  });
+  const valuePass = `SELECT v.f, v.b, v.o, v.c, count(*) AS n, sum(v.x) AS s, min(v.x) AS lo, max(v.x) AS hi
+  FROM ${plan.relation}
+       CROSS JOIN LATERAL (VALUES ${rows.join(',\n              ')}) AS v(f, b, o, c, x)
+ WHERE ${plan.dateColumn} = ${vDate}
+ GROUP BY 1, 2, 3, 4`;
+
+  return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
+}
+
+function emptyQuality(): QualityCounts {
+  return { rows: 0, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 0 };
+}
+
+/**
+ * Session settings for the aggregate statements: JIT compilation makes these wide
+ * aggregates slower (measured on this kind of machine), and partition-wise aggregation lets
+ * a table partitioned by list id aggregate each partition apart (on the shards, for
+ * postgres_fdw partitions). SET LOCAL ends with the caller's transaction.
+ */
+export async function preparePushdownSession(client: PoolClient): Promise<void> {
+  await client.query('SET LOCAL jit = off');
+  await client.query('SET LOCAL enable_partitionwise_aggregate = on');
+}
+
+/**
+ * Runs both aggregate statements for one day. `client` must be inside a read-only
+ * REPEATABLE READ transaction (both statements then see the same snapshot).
+ */
+export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayAggregates> {
+  const q = buildPushdownQueries(config, plan, date, specs);
+  await preparePushdownSession(client);
+
+  const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
+  const sizes = new Array<number>(LIST_SIZE_BINS).fill(0);
+  const dataset: DatasetCounts = { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
+  const itemFeatures = config.features.filter((f) => f.scope === 'item');
+  const wlSums = new Array<number>(itemFeatures.length * 3).fill(0);
+  for (const r of listRes.rows) {
+    const rows = Number(r.rows);
+    dataset.rows += rows;
+    // Rows without a list id form one group of their own and belong to no list.
+    if (r.nl) {
+      dataset.nullListIdRows += rows;
+      continue;
+    }
+    const lists = Number(r.lists);
+    dataset.lists += lists;
+    sizes[Number(r.size) - 1]! += lists;
+    if (Number(r.size) === 1) dataset.singletonLists += lists;
+    dataset.listsWithDuplicateItems += Number(r.dup);
+    dataset.listsWithPositionGaps += Number(r.gap);
+    if (plan.hasLabel) {
+      dataset.labelRows += Number(r.ly ?? 0);
+      dataset.labelPositives += Number(r.lp ?? 0);
+      dataset.listsWithoutPositive += Number(r.nopos);
+    }
+    r.wl.forEach((x, k) => (wlSums[k]! += Number(x)));
+  }
+  const withinList: Record<string, WithinListCounts> = {};
+  itemFeatures.forEach((f, k) => {
+    withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
+  });
+
+  const valueRes = await client.query<{ f: number; b: number | null; o: boolean; c: string | null; n: string; s: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const numeric: Record<string, NumericAggregates> = {};
+  const categorical: DayAggregates['categorical'] = {};
+  for (const f of config.features) {
+    if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: {} };
+    else {
+      const spec = countingSpec(specs, f.name);
+      numeric[f.name] = { quality: emptyQuality(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
+    }
+  }
+  for (const r of valueRes.rows) {
+    const f = config.features[r.f]!;
+    const n = Number(r.n);
+    if (f.kind === 'categorical') {
+      const cat = categorical[f.name]!;
+      cat.rows += n;
+      if (r.c === null) cat.nulls += n;
+      else cat.categories[r.c] = (cat.categories[r.c] ?? 0) + n;
+      continue;
+    }
+    const a = numeric[f.name]!;
+    const q = a.quality;
+    q.rows += n;
+    const b = r.b!;
+    if (b === CODE_NULL) q.nulls += n;
+    else if (b === CODE_TYPE_ERROR) q.typeErrors += n;
+    else if (b === CODE_NAN) q.nan += n;
+    else if (b === CODE_POS_INF) q.posInf += n;
+    else if (b === CODE_NEG_INF) q.negInf += n;
+    else {
+      q.finite += n;
+      if (r.o) q.outOfRange += n;
+      if (a.counts.length > 0) a.counts[b]! += n;
+      a.sum += r.s ?? 0;
+      if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
+      if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
+    }
+  }
+  return { dataset, numeric, categorical, withinList };
+}
+
+/**
+ * The day's profile from the exact aggregates and a whole-list sample of the day (the
+ * stream engine's profile of those rows): counts, bins and within-list counts come from
+ * SQL; the value sample (for later baselines and the distinct-value checks) from the sample.
+ */
+export function assemblePushdownProfile(date: string, agg: DayAggregates, sample: DayProfile, config: Config, specs: PushdownSpecs): DayProfile {
+  const features: Record<string, FeatureProfile> = {};
+  for (const f of config.features) {
+    const fromSample = sample.features[f.name];
+    if (f.kind === 'categorical') {
+      const c = agg.categorical[f.name]!;
+      const quality: QualityCounts = { ...emptyQuality(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
+      const profile: CategoricalProfile = { kind: 'categorical', quality, categories: c.categories, distinct: Object.keys(c.categories).length, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
+      features[f.name] = profile;
+      continue;
+    }
+    const a = agg.numeric[f.name]!;
+    const s = fromSample as NumericProfile | undefined;
+    const sortedSample = s?.sortedSample ?? new Float64Array(0);
+    // The sample's distinct count, corrected by the exact extremes: constant means min = max over the whole day.
+    let distinct = s?.distinct ?? 0;
+    if (a.quality.finite === 0) distinct = 0;
+    else if (a.min === a.max) distinct = 1;
+    else distinct = Math.max(2, distinct);
+    const coarse = specs.bins?.[f.name];
+    const fine = specs.fineBins?.[f.name];
+    let binCounts: number[] = [];
+    if (coarse !== undefined) {
+      const counted = countingSpec(specs, f.name)!;
+      const map = counted === coarse ? null : refinementMap(coarse, counted);
+      const nCoarse = coarse.edges.length + coarse.pointMass.filter(Boolean).length + 1;
+      binCounts = new Array<number>(nCoarse).fill(0);
+      a.counts.forEach((c, b) => (binCounts[map === null ? b : map[b]!]! += c));
+      // As countsOverBins: infinities in the outer bins, then one bin for the missing values.
+      binCounts[0]! += a.quality.negInf;
+      binCounts[nCoarse - 1]! += a.quality.posInf;
+      binCounts.push(a.quality.nulls + a.quality.nan + a.quality.typeErrors);
+    }
+    const profile: NumericProfile = {
+      kind: f.kind === 'binary' ? 'binary' : 'numeric',
+      quality: a.quality,
+      binCounts,
+      sortedSample,
+      distinct,
+      mean: a.quality.finite > 0 ? a.sum / a.quality.finite : null,
+      withinList: f.scope === 'item' ? agg.withinList[f.name]! : null,
+    };
+    if (fine !== undefined) profile.fineBinCounts = a.counts;
+    features[f.name] = profile;
+  }
+  return {
+    date,
+    dataset: agg.dataset,
+    totalRows: agg.dataset.rows,
+    totalLists: agg.dataset.lists,
+    // Every count is exact; only the value sample is a sample.
+    sampled: false,
+    features,
+  };
+}
