@@ -332,7 +332,22 @@ export const ConfigSchema = z
       });
     },
     everyProblem,
-  );
+  )
+  .transform(withModelScore);
+
+/**
+ * The model score, when `source.columns.score` names it, is watched like any numeric
+ * feature (named after its column): the ranker's own output drifting is the most direct
+ * symptom of a broken input. A feature that already reads that column wins.
+ */
+function withModelScore<C extends { source: { columns: { score?: string | undefined }; featuresColumn?: string | undefined }; features: FeatureConfig[] }>(c: C): C {
+  const score = c.source.columns.score;
+  if (score === undefined) return c;
+  const taken = c.features.some((f) => f.name === score || (f.key === undefined && (f.column ?? f.name) === score));
+  if (taken) return c;
+  const feature: FeatureConfig = { name: score, column: score, kind: 'numeric', scope: 'item', nullable: true };
+  return { ...c, features: [...c.features, feature] };
+}
 
 export type Config = z.infer<typeof ConfigSchema>;
 /** What the YAML file may say before defaults are applied. */
