@@ -415,7 +415,8 @@ describe('the demo configs', () => {
       expect(config.source.columns.score).toBe(SCORE_COLUMN);
       expect(config.source.featuresColumn).toBe(jsonb ? 'features' : undefined);
       expect(config.baseline.window).toEqual({ type: 'trailing', days: 28 });
-      expect(config.features.map((f) => f.name)).toEqual(FEATURES.map((f) => f.name));
+      // The declared features, then the model score column, which Plumbline watches as a feature too.
+      expect(config.features.map((f) => f.name)).toEqual([...FEATURES.map((f) => f.name), SCORE_COLUMN]);
       for (const f of FEATURES) {
         const c = config.features.find((x) => x.name === f.name);
         expect(c?.kind, f.name).toBe(f.kind);
