@@ -78,7 +78,11 @@ export async function serve(options: ServeOptions): Promise<number> {
   let running: Promise<void> | null = null;
   let runAbort: AbortController | null = null;
   let retryTimer: NodeJS.Timeout | null = null;
+  let retryAt = 0;
   let failureStreak = 0;
+  /** A manually requested date whose run failed and is waiting for its retry. */
+  let retryDate: string | null = null;
+  let manualStreak = 0;
   const firstAttempt = new Map<string, Date>();
 
   const probe = async (pool: Pool): Promise<boolean> => {
@@ -106,13 +110,22 @@ export async function serve(options: ServeOptions): Promise<number> {
     }
   };
 
+  /** One retry timer serves the due days and a failed manual date; the sooner request wins. */
   const scheduleRetry = (ms: number, why: string): void => {
     if (stopping.signal.aborted) return;
-    if (retryTimer !== null) clearTimeout(retryTimer);
+    if (retryTimer !== null) {
+      if (retryAt <= Date.now() + ms) return;
+      clearTimeout(retryTimer);
+    }
     log.info('next attempt scheduled', { inSeconds: Math.round(ms / 1000), why });
+    retryAt = Date.now() + ms;
     retryTimer = setTimeout(() => {
       retryTimer = null;
-      void runDue('retry');
+      void (async () => {
+        // A failed manual run of a date is retried like a scheduled one (the operator asked for that date).
+        if (retryDate !== null) await runDate(retryDate, 'retry');
+        await runDue('retry');
+      })();
     }, ms);
     retryTimer.unref();
   };
@@ -120,6 +133,8 @@ export async function serve(options: ServeOptions): Promise<number> {
   /** Runs what is due now; one at a time (a second call while busy is skipped). */
   const runDue = async (reason: string): Promise<void> => {
     if (running !== null || stopping.signal.aborted || !migrated) return;
+    // Serving stored results only (the demo): no schedule, no catch-up, only manual runs.
+    if (options.runSchedule === false && reason !== 'manual') return;
     if (!(await leader.tryAcquire())) {
       metrics.setLeader(false);
       return;
@@ -144,9 +159,7 @@ export async function serve(options: ServeOptions): Promise<number> {
       const waiting = outcomes.find((o) => o.outcome === 'waiting');
       if (failed !== undefined && failed.outcome === 'failed') {
         failureStreak++;
-        // Connection trouble heals by itself: retry soon, backing off; other failures wait longer.
-        const base = isConnectionError(failed.error) ? 15_000 : 300_000;
-        scheduleRetry(Math.min(base * 2 ** (failureStreak - 1), 3_600_000), `run of ${failed.date} failed`);
+        scheduleRetry(retryDelayMs(config, failed.error, failureStreak), `run of ${failed.date} failed`);
       } else {
         failureStreak = 0;
         if (waiting !== undefined && waiting.outcome === 'waiting') scheduleRetry(config.schedule.readiness.retryEverySeconds * 1000, `${waiting.date}: ${waiting.reason}`);
@@ -154,6 +167,46 @@ export async function serve(options: ServeOptions): Promise<number> {
     })()
       .catch((err: unknown) => {
         log.error('scheduled job crashed', errorFields(err));
+      })
+      .finally(() => {
+        running = null;
+        runAbort = null;
+      });
+    await running;
+  };
+
+  /**
+   * A run of one given date (manual, or the retry of a failed manual run). A failure is
+   * retried with backoff until the date succeeds or another manual run is requested.
+   */
+  const runDate = async (date: string, reason: string): Promise<void> => {
+    if (stopping.signal.aborted) return;
+    if (running !== null) {
+      // Busy (a scheduled run): try again shortly instead of dropping the retry.
+      if (reason === 'retry') scheduleRetry(retryDelayMs(config, null, 1), `${date} waits for the run in progress`);
+      return;
+    }
+    runAbort = new AbortController();
+    const signal = runAbort.signal;
+    const startedAt = now();
+    log.info('running a date', { date, reason });
+    running = runDay({ config, source: rt.source, store: rt.store, log, signal, now }, date)
+      .then(
+        async () => {
+          if (retryDate === date) retryDate = null;
+          manualStreak = 0;
+          await afterRun(true, startedAt);
+        },
+        async (err: unknown) => {
+          await afterRun(false, startedAt);
+          if (stopping.signal.aborted) return;
+          manualStreak++;
+          retryDate = date;
+          scheduleRetry(retryDelayMs(config, err, manualStreak), `run of ${date} failed`);
+        },
+      )
+      .catch((err: unknown) => {
+        log.error('manual run crashed', errorFields(err));
       })
       .finally(() => {
         running = null;
@@ -171,18 +224,10 @@ export async function serve(options: ServeOptions): Promise<number> {
       return { accepted: true, message: 'running the due days' };
     }
     if (!isIsoDate(date)) return { accepted: false, message: 'date must be YYYY-MM-DD' };
-    runAbort = new AbortController();
-    const signal = runAbort.signal;
-    const startedAt = now();
-    running = runDay({ config, source: rt.source, store: rt.store, log, signal, now }, date)
-      .then(
-        () => afterRun(true, startedAt),
-        () => afterRun(false, startedAt),
-      )
-      .finally(() => {
-        running = null;
-        runAbort = null;
-      });
+    // A new manual run replaces the pending retry of an earlier one.
+    retryDate = null;
+    manualStreak = 0;
+    void runDate(date, 'manual');
     return { accepted: true, message: `running ${date}` };
   };
 
@@ -242,19 +287,20 @@ export async function serve(options: ServeOptions): Promise<number> {
     await runDue('start');
   })();
 
-  const probes = setInterval(() => {
-    void (async () => {
-      const [s, st] = await Promise.all([probe(rt.source), probe(rt.storePool)]);
-      metrics.setSourceUp(s);
-      metrics.setStoreUp(st);
-      if (migrated && running === null) {
-        const wasLeader = leader.isLeader;
-        const isLeader = await leader.tryAcquire();
-        metrics.setLeader(isLeader);
-        if (isLeader && !wasLeader) void runDue('became leader');
-      }
-    })();
-  }, options.probeIntervalMs ?? 15_000);
+  const probeAll = async (): Promise<void> => {
+    const [s, st] = await Promise.all([probe(rt.source), probe(rt.storePool)]);
+    metrics.setSourceUp(s);
+    metrics.setStoreUp(st);
+    if (migrated && running === null && !stopping.signal.aborted) {
+      const wasLeader = leader.isLeader;
+      const isLeader = await leader.tryAcquire();
+      metrics.setLeader(isLeader);
+      if (isLeader && !wasLeader) void runDue('became leader');
+    }
+  };
+  // Probe once at start too: until the first interval, source_up and store_up would have no sample.
+  void probeAll();
+  const probes = setInterval(() => void probeAll(), options.probeIntervalMs ?? 15_000);
   probes.unref();
 
   // --- shutdown -----------------------------------------------------------------------------
@@ -266,12 +312,16 @@ export async function serve(options: ServeOptions): Promise<number> {
   if (task !== null) await (task as ScheduledTask).stop();
   if (running !== null) {
     const grace = options.shutdownGraceMs ?? 20_000;
+    // The timers of these waits are cancelled once the run ends: a pending one would keep the
+    // process alive for the whole grace period after a clean stop.
+    const waits = new AbortController();
     // Let the run finish within the grace period; then abort it (it rolls back and stores nothing).
-    const finished = await Promise.race([(running as Promise<void>).then(() => true), sleep(grace).then(() => false)]);
+    const finished = await Promise.race([(running as Promise<void>).then(() => true), sleep(grace, waits.signal).then(() => false)]);
     if (!finished) {
       (runAbort as AbortController | null)?.abort(new Error('shutting down'));
-      await Promise.race([running as Promise<void>, sleep(5000)]);
+      await Promise.race([running as Promise<void>, sleep(5000, waits.signal)]);
     }
+    waits.abort();
   }
   await startUp.catch(() => undefined);
   await http.close();
@@ -279,6 +329,24 @@ export async function serve(options: ServeOptions): Promise<number> {
   await rt.close();
   log.info('stopped');
   return EXIT.ok;
+}
+
+/** Connection trouble heals by itself; stores and sources wrap the driver's error as `cause`. */
+function isTransient(err: unknown): boolean {
+  for (let e = err, depth = 0; e !== null && e !== undefined && depth < 5; e = (e as { cause?: unknown }).cause, depth++) {
+    if (isConnectionError(e)) return true;
+  }
+  return false;
+}
+
+/**
+ * Wait before the next attempt after `streak` consecutive failures: schedule.retryBaseSeconds
+ * doubled per failure, at most an hour; failures other than connection trouble start 20 times
+ * later (a config or data problem will not heal in seconds). `null`: just wait the base.
+ */
+export function retryDelayMs(config: Config, err: unknown, streak: number): number {
+  const base = config.schedule.retryBaseSeconds * 1000 * (err === null || isTransient(err) ? 1 : 20);
+  return Math.min(base * 2 ** Math.max(0, streak - 1), 3_600_000);
 }
 
 /** True once readiness.deadlineMinutes have passed since the first attempt at a date. */

@@ -141,7 +141,8 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     let killed = 0;
     const killer = setInterval(() => {
       void admin
-        .query<{ ok: boolean }>(`SELECT pg_terminate_backend(pid) AS ok FROM pg_stat_activity WHERE application_name = 'plumbline-source' AND query LIKE 'COPY%'`)
+        // Only this test's read (its view is in a schema of its own): other test files share the server.
+        .query<{ ok: boolean }>(`SELECT pg_terminate_backend(pid) AS ok FROM pg_stat_activity WHERE application_name = 'plumbline-source' AND query LIKE 'COPY%' AND query LIKE $1`, [`%${sourceSchema}%`])
         .then((r) => (killed += r.rows.filter((x) => x.ok).length));
     }, 50);
     try {
