@@ -8,7 +8,7 @@ import { createTask, type ScheduledTask } from 'node-cron';
 import type { Config } from '../config/index.ts';
 import { isConnectionError, type Pool } from '../db/index.ts';
 import { exitCodeFor, EXIT } from '../errors.ts';
-import { PlumblineMetrics, startHttpServer, type RunningHttpServer } from '../exporter/index.ts';
+import { PlumblineMetrics, pushAlerts, startHttpServer, type AlertLabels, type RunningHttpServer } from '../exporter/index.ts';
 import { errorFields, type Logger } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { isIsoDate, runDay } from '../run/index.ts';
@@ -101,10 +101,27 @@ export async function serve(options: ServeOptions): Promise<number> {
   };
 
   // --- runs ---------------------------------------------------------------------------
+  /**
+   * Optional Alertmanager push: the alerting findings of the latest report, resent after every
+   * run (their endsAt lies past the next expected run) and resolved once they stop alerting.
+   * A failed push is logged and retried with the next report; it never fails a run.
+   */
+  let pushedAlerts: AlertLabels[] | null = null;
+  const pushToAlertmanager = async (report: Report | null): Promise<void> => {
+    const target = config.alerting.alertmanagerUrl;
+    if (target === undefined || report === null) return;
+    const result = await pushAlerts(target, report, { previous: pushedAlerts, now });
+    pushedAlerts = result.active;
+    if (!result.ok) log.warn('alertmanager push failed', { error: result.error ?? 'unknown', status: result.status ?? null });
+    else log.info('alerts pushed to alertmanager', { firing: result.firing, resolved: result.resolved });
+  };
+
   const afterRun = async (ok: boolean, startedAt: Date): Promise<void> => {
     metrics.recordRun({ ok, startedAt: startedAt.toISOString(), finishedAt: now().toISOString() });
     try {
-      metrics.showReport(await rt.store.latestReport());
+      const latest = await rt.store.latestReport();
+      metrics.showReport(latest);
+      if (ok) await pushToAlertmanager(latest);
     } catch (err) {
       log.warn('could not reload the latest report', errorFields(err));
     }
