@@ -242,10 +242,25 @@ export type NumericProfiler = (cols: DayColumns, g: ListGrouping, indexes: numbe
 export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, config, bins) =>
   indexes.map((fi) => {
     const f = config.features[fi]!;
-    return numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name]);
+    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name]);
+    releaseColumn(cols, fi);
+    return profile;
   });
 
-/** The profile of one day; `bins` (the baseline's) fill in binCounts when given. */
+/**
+ * Drops a profiled column from the day's columns. A column and its sorted copy together
+ * are what a day costs in memory; letting each column go as soon as it is profiled keeps
+ * the peak near one copy of the day instead of two.
+ */
+export function releaseColumn(cols: DayColumns, fi: number): void {
+  cols.numeric[fi] = null;
+  cols.missing[fi] = null;
+}
+
+/**
+ * The profile of one day; `bins` (the baseline's) fill in binCounts when given. Consumes
+ * the numeric columns of `cols` (each is released once profiled).
+ */
 export async function buildDayProfile(cols: DayColumns, config: Config, bins: Record<string, BinSpec> | null, profiler: NumericProfiler = profileOnThisThread): Promise<DayProfile> {
   const g = groupByList(cols.listOf, cols.lists);
   const features: Record<string, FeatureProfile> = {};

@@ -9,7 +9,7 @@ import { extname } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { NumericProfile } from './types.ts';
-import { profileOnThisThread, type NumericProfiler } from './day.ts';
+import { profileOnThisThread, releaseColumn, type NumericProfiler } from './day.ts';
 import type { ProfileRequest } from './worker.ts';
 
 /** Rows below which a day is profiled on one thread. */
@@ -52,7 +52,10 @@ export function threadedProfiler(threads: number = availableParallelism()): Nume
         grouping: g,
         jobs: share.map((fi) => {
           const feature = config.features[fi]!;
-          return { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+          const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+          // The worker holds the shared column now; this thread lets go of it.
+          releaseColumn(cols, fi);
+          return job;
         }),
       }),
     );

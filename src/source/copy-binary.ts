@@ -28,6 +28,12 @@ export interface TupleSink {
   /** Called with the byte range of a non-null field, or start = -1 for NULL. */
   field(column: number, buf: Buffer, start: number, length: number): void;
   endTuple(): void;
+  /**
+   * Optional fast path: decode a whole tuple whose fields start at `start` (each an int32
+   * length, -1 for NULL, then the bytes), instead of one call per field. The parser has
+   * checked that the tuple is complete. A day of 1M rows x 50 features is 50M fields.
+   */
+  tuple?(buf: Buffer, view: DataView, start: number, fieldCount: number): void;
 }
 
 export class CopyBinaryParser {
@@ -62,6 +68,7 @@ export class CopyBinaryParser {
       this.headerDone = true;
     }
     const n = buf.length;
+    let view: DataView | undefined;
     if (this.finished && pos < n) throw new DataError('COPY stream has data after its trailer');
     while (pos + 2 <= n) {
       const fieldCount = buf.readInt16BE(pos);
@@ -90,14 +97,21 @@ export class CopyBinaryParser {
         }
       }
       if (!complete) break;
-      let p = pos + 2;
-      for (let c = 0; c < fieldCount; c++) {
-        const len = buf.readInt32BE(p);
-        p += 4;
-        if (len < 0) this.sink.field(c, buf, -1, 0);
-        else {
-          this.sink.field(c, buf, p, len);
-          p += len;
+      if (this.sink.tuple !== undefined) {
+        // One DataView per chunk: its getters are cheaper than Buffer's checked readers.
+        view ??= new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
+        this.sink.tuple(buf, view, pos + 2, fieldCount);
+      }
+      else {
+        let p = pos + 2;
+        for (let c = 0; c < fieldCount; c++) {
+          const len = buf.readInt32BE(p);
+          p += 4;
+          if (len < 0) this.sink.field(c, buf, -1, 0);
+          else {
+            this.sink.field(c, buf, p, len);
+            p += len;
+          }
         }
       }
       this.sink.endTuple();

@@ -255,7 +255,8 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     const spec = countingSpec(specs, f.name);
     const bin = spec === undefined || spec.edges.length === 0 ? '0' : `width_bucket(${v}, ${vp.add(widthBucketThresholds(spec), 'float8[]')})`;
     const missing = fs.typeError === null ? `${CODE_NULL}` : `(CASE WHEN ${fs.typeError} THEN ${CODE_TYPE_ERROR} ELSE ${CODE_NULL} END)`;
-    const code = `(CASE WHEN ${v} IS NULL THEN ${missing} WHEN ${v} = 'NaN'::float8 THEN ${CODE_NAN} WHEN ${v} = 'Infinity'::float8 THEN ${CODE_POS_INF} WHEN ${v} = '-Infinity'::float8 THEN ${CODE_NEG_INF} ELSE ${bin} END)`;
+    // Finite first: nearly every row is, and each test is a function call per row and feature.
+    const code = `(CASE WHEN ${finite(v)} THEN ${bin} WHEN ${v} IS NULL THEN ${missing} WHEN ${v} = '-Infinity'::float8 THEN ${CODE_NEG_INF} WHEN ${v} = 'Infinity'::float8 THEN ${CODE_POS_INF} ELSE ${CODE_NAN} END)`;
     const bounds: string[] = [];
     if (f.range?.min !== undefined) bounds.push(`${v} < ${vp.add(f.range.min, 'float8')}`);
     if (f.range?.max !== undefined) bounds.push(`${v} > ${vp.add(f.range.max, 'float8')}`);

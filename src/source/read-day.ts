@@ -107,6 +107,24 @@ class DaySink implements TupleSink {
     this.categoryCodes = out.categorical.map((c) => (c === null ? null : new Map()));
   }
 
+  /** The fast path: features read as float8 are decoded inline; the rest go through field(). */
+  tuple(buf: Buffer, view: DataView, start: number, fieldCount: number): void {
+    const kind = this.kind;
+    const numeric = this.out.numeric;
+    const feature = this.feature;
+    const row = this.row;
+    let p = start;
+    for (let c = 0; c < fieldCount; c++) {
+      const len = view.getInt32(p);
+      p += 4;
+      if (len === 8 && kind[c] === Col.Float8) {
+        numeric[feature[c]!]![row] = view.getFloat64(p);
+      } else if (len < 0) this.field(c, buf, -1, 0);
+      else this.field(c, buf, p, len);
+      if (len > 0) p += len;
+    }
+  }
+
   field(column: number, buf: Buffer, start: number, length: number): void {
     const row = this.row;
     const isNull = start < 0;
