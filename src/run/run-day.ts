@@ -12,9 +12,9 @@ import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
-import { buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, type BaselineProfile, type DayProfile } from '../profile/index.ts';
+import { buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
-import { checkJsonbKeys, countDays, planSource, readDay, type SourcePlan } from '../source/index.ts';
+import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
 import { baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
@@ -84,12 +84,31 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
   if (signal?.aborted) throw signal.reason instanceof Error ? signal.reason : new Error('run aborted');
 }
 
-async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null): Promise<DayProfile> {
+async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null): Promise<DayProfile> {
+  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null });
   const t0 = performance.now();
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
   const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
   deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
+  return profile;
+}
+
+/**
+ * The pushdown engine: exact counts from aggregate SQL, and a small whole-list sample of
+ * the day (through the stream reader) for the value sample, both in one snapshot.
+ */
+async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayProfile> {
+  const t0 = performance.now();
+  const { agg, cols } = await withReadOnlyTransaction(deps.source, async (client) => {
+    const agg = await readDayAggregates(client, deps.config, plan, date, specs);
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
+    return { agg, cols };
+  });
+  const t1 = performance.now();
+  const sample = await buildDayProfile(cols, deps.config, null, threadedProfiler());
+  const profile = assemblePushdownProfile(date, agg, sample, deps.config, specs);
+  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
   return profile;
 }
 
@@ -143,10 +162,12 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
       return p;
     });
     const tBaseline = performance.now();
-    const baseline = await ensureBaseline(deps, plan, runDate);
+    const stored = await ensureBaseline(deps, plan, runDate);
+    // The pushdown engine counts the day into fine bins too (a stored baseline may predate them).
+    const baseline = deps.config.source.engine === 'pushdown' ? withFineBins(stored) : stored;
     deps.log.debug('baseline ready', { runDate, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
-    const current = await readProfile(deps, plan, runDate, baseline.bins);
+    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
     const tSave = performance.now();

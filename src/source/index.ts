@@ -7,8 +7,10 @@ export {
   preparePushdownSession,
   readDayAggregates,
   refinementMap,
+  valueCoding,
   widthBucketThresholds,
   type DayAggregates,
   type PushdownQueries,
   type PushdownSpecs,
+  type ValueCoding,
 } from './pushdown.ts';

@@ -5,9 +5,13 @@
  */
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
+import { main as pushdownBench } from './pushdown.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
 console.log('');
 console.log('== a daily run against PostgreSQL (tests/bench/run.bench.ts)');
 await runBench();
+console.log('');
+console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
+await pushdownBench();

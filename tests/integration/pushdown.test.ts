@@ -1,0 +1,201 @@
+/**
+ * The two engines on the same rows of a real PostgreSQL server: `stream` (rows come to
+ * Plumbline) and `pushdown` (PostgreSQL aggregates). On the invented fault scenario they must
+ * give identical PSI over the same bins, identical quality, within-list and dataset ratios,
+ * a pushdown KS D whose reported error bound covers the stream engine's exact D, and both
+ * must catch every injected fault.
+ *
+ * The reference for every pushdown value is the stream engine on the same rows (its own
+ * statistics are checked against published values in tests/unit/stats).
+ */
+import pg from 'pg';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { addDays, type FaultPlan, type ScenarioOptions } from '../../demo-data/scenario.ts';
+import { loadScenario } from '../../demo-data/load.ts';
+import { openRuntime, type Runtime } from '../../src/cli.ts';
+import type { Config } from '../../src/config/index.ts';
+import { silentLogger } from '../../src/log.ts';
+import { fineBinsFromSorted } from '../../src/profile/index.ts';
+import type { Finding, Report } from '../../src/report/index.ts';
+import { runDay } from '../../src/run/index.ts';
+import { refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
+import { assignBin, binEdgesFromSorted, type BinSpec } from '../../src/stats/index.ts';
+import { migrate } from '../../src/store/index.ts';
+import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { scenarioConfig } from '../support/scenario-config.ts';
+
+const url = testDatabaseUrl();
+const START = '2025-06-02';
+const BASELINE_DAYS = 14;
+const faultDay = (i: number): string => addDays(START, BASELINE_DAYS + i);
+
+/** The faults of tests/integration/run-day.test.ts, one a day after a clean baseline. */
+const FAULTS: { plan: FaultPlan; expect: { feature: string | null; check: string; rule?: string; atLeast: 'warn' | 'critical' } }[] = [
+  { plan: { date: faultDay(0), kind: 'mean_shift', feature: 'semantic_similarity', amount: 0.5 }, expect: { feature: 'semantic_similarity', check: 'ks', atLeast: 'warn' } },
+  { plan: { date: faultDay(1), kind: 'unit_change', feature: 'price', amount: 100 }, expect: { feature: 'price', check: 'psi', atLeast: 'critical' } },
+  { plan: { date: faultDay(2), kind: 'null_spike', feature: 'review_count', amount: 0.2 }, expect: { feature: 'review_count', check: 'null_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(3), kind: 'minmax_raw', feature: 'text_match_norm' }, expect: { feature: 'text_match_norm', check: 'rule_violation_ratio', rule: 'minmax', atLeast: 'critical' } },
+  { plan: { date: faultDay(4), kind: 'stuck_default', feature: 'listing_age_days', amount: 0 }, expect: { feature: 'listing_age_days', check: 'constant', atLeast: 'critical' } },
+  { plan: { date: faultDay(5), kind: 'flat_within_lists', feature: 'photo_quality' }, expect: { feature: 'photo_quality', check: 'flat_list_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(6), kind: 'list_truncation', amount: 0.4 }, expect: { feature: null, check: 'list_size_psi', atLeast: 'critical' } },
+  { plan: { date: faultDay(7), kind: 'new_category', feature: 'plant_family', amount: 0.3 }, expect: { feature: 'plant_family', check: 'new_category_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(8), kind: 'nonfinite', feature: 'text_match', amount: 0.02 }, expect: { feature: 'text_match', check: 'nonfinite_ratio', atLeast: 'critical' } },
+  { plan: { date: faultDay(9), kind: 'duplicate_items', amount: 0.2 }, expect: { feature: null, check: 'duplicate_item_ratio', atLeast: 'critical' } },
+];
+
+const SCENARIO: ScenarioOptions = { startDate: START, days: BASELINE_DAYS + FAULTS.length, listsPerDay: 200, meanListSize: 20, seed: 7, faults: FAULTS.map((f) => f.plan) };
+
+/** The jsonb layout, where text in a numeric key is a type error and NaN arrives as text. */
+const JSONB_START = '2025-09-01';
+const JSONB_SCENARIO: ScenarioOptions = {
+  startDate: JSONB_START,
+  days: 9,
+  listsPerDay: 60,
+  meanListSize: 12,
+  seed: 99,
+  faults: [
+    { date: addDays(JSONB_START, 7), kind: 'unit_change', feature: 'price', amount: 100 },
+    { date: addDays(JSONB_START, 8), kind: 'type_error', feature: 'review_count', amount: 0.05 },
+    { date: addDays(JSONB_START, 8), kind: 'null_spike', feature: 'seller_rating', amount: 0.2 },
+  ],
+};
+
+const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
+const QUALITY = ['null_ratio', 'nonfinite_ratio', 'type_error_ratio', 'out_of_range_ratio'];
+const WITHIN_LIST = ['flat_list_ratio', 'rule_violation_ratio'];
+const DATASET = ['row_count_ratio', 'list_count_ratio', 'list_size_psi', 'duplicate_item_ratio', 'position_gap_ratio', 'null_list_id_ratio', 'singleton_list_ratio', 'label_positive_ratio', 'no_positive_list_ratio'];
+
+const key = (f: Finding): string => `${f.feature ?? 'dataset'} ${f.check}${f.rule === null ? '' : ` ${f.rule}`}`;
+
+function withEngine(config: Config, engine: 'stream' | 'pushdown', storeSchema: string): Config {
+  return { ...config, source: { ...config.source, engine }, store: { ...config.store, schema: storeSchema } };
+}
+
+/** Store schemas created so far: dropped at the end even when a run failed midway. */
+const createdStores: string[] = [];
+
+/** Runs `dates` with both engines (separate stores) on one source table. */
+async function bothEngines(config: Config, dates: readonly string[]): Promise<{ stream: Map<string, Report>; pushdown: Map<string, Report> }> {
+  const out = { stream: new Map<string, Report>(), pushdown: new Map<string, Report>() };
+  for (const engine of ['stream', 'pushdown'] as const) {
+    const store = uniqueSchema(`pd_${engine}`);
+    createdStores.push(store);
+    const cfg = withEngine(config, engine, store);
+    const rt: Runtime = openRuntime(cfg, silentLogger, { PLUMBLINE_SOURCE_URL: url });
+    try {
+      await migrate(rt.storePool, store);
+      for (const d of dates) out[engine].set(d, (await runDay({ config: cfg, source: rt.source, store: rt.store, log: silentLogger }, d)).report);
+    } finally {
+      await rt.close();
+    }
+  }
+  return out;
+}
+
+/** Checks one day's two reports against each other; returns how many findings were compared. */
+function expectAgreement(stream: Report, pushdown: Report): number {
+  expect(pushdown.engine).toBe('pushdown');
+  expect(stream.engine).toBe('stream');
+  expect(pushdown.current).toEqual(stream.current);
+  const s = new Map(stream.findings.map((f) => [key(f), f]));
+  const p = new Map(pushdown.findings.map((f) => [key(f), f]));
+  expect([...p.keys()].sort()).toEqual([...s.keys()].sort());
+  for (const [k, sf] of s) {
+    const pf = p.get(k)!;
+    if (sf.check === 'psi') {
+      // Same bins, same counts: the same PSI to the last bit, and the same per-bin evidence.
+      expect(pf.value, k).toBe(sf.value);
+      expect(pf.status, k).toBe(sf.status);
+      expect(pf.evidence['bins'], k).toEqual(sf.evidence['bins']);
+      expect(pf.evidence['noiseFloor'], k).toBe(sf.evidence['noiseFloor']);
+    } else if (sf.check === 'ks') {
+      // Binned D is a lower bound of the exact D; the reported bound covers the rest.
+      const bound = pf.evidence['dErrorBound'] as number;
+      expect(pf.evidence['ksMethod'], k).toBe('binned');
+      // About FINE_BINS bins for a continuous feature; one per value for a low-cardinality one (then the bound is 0).
+      expect(pf.evidence['fineBins'], k).toBeGreaterThan(k.startsWith('semantic_similarity') ? 500 : 1);
+      expect(pf.value, k).toBeLessThanOrEqual(sf.value + 1e-12);
+      expect(sf.value, k).toBeLessThanOrEqual(pf.value + bound + 1e-12);
+      expect(pf.evidence['m'], k).toBe(sf.evidence['m']);
+      expect(pf.summary, k).toContain('fine bins');
+    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop') {
+      expect(pf.value, k).toBe(sf.value);
+      expect(pf.status, k).toBe(sf.status);
+      expect(pf.evidence, k).toEqual(sf.evidence);
+    } else {
+      throw new Error(`a check this test does not compare: ${k}`);
+    }
+  }
+  return s.size;
+}
+
+describe.skipIf(url === undefined)('pushdown engine against the stream engine (PLUMBLINE_TEST_DATABASE_URL)', () => {
+  const src = uniqueSchema('pd_src');
+  const table = `${src}.impressions`;
+  const jsonTable = `${src}.impressions_jsonb`;
+  let admin: pg.Client;
+  let wide: Awaited<ReturnType<typeof bothEngines>>;
+  let jsonb: Awaited<ReturnType<typeof bothEngines>>;
+
+  beforeAll(async () => {
+    admin = new pg.Client({ connectionString: url });
+    await admin.connect();
+    await loadScenario(admin, { table, layout: 'wide', scenario: SCENARIO });
+    await loadScenario(admin, { table: jsonTable, layout: 'jsonb', scenario: JSONB_SCENARIO });
+    const config = scenarioConfig(table, { storeSchema: 'unused', overrides: { baseline: { window: { type: 'trailing', days: BASELINE_DAYS } } } });
+    wide = await bothEngines(config, FAULTS.map((f) => f.plan.date));
+    const jsonConfig = scenarioConfig(jsonTable, { layout: 'jsonb', storeSchema: 'unused', overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
+    jsonb = await bothEngines(jsonConfig, [addDays(JSONB_START, 7), addDays(JSONB_START, 8)]);
+  }, 240_000);
+
+  afterAll(async () => {
+    await admin?.query([src, ...createdStores].map((s) => `DROP SCHEMA IF EXISTS "${s}" CASCADE`).join('; '));
+    await admin?.end();
+  });
+
+  it.each(FAULTS.map((f) => [f.plan.kind, f] as const))('agrees with the stream engine on the day of %s', (_kind, { plan }) => {
+    expect(expectAgreement(wide.stream.get(plan.date)!, wide.pushdown.get(plan.date)!)).toBeGreaterThan(50);
+  });
+
+  it.each(FAULTS.map((f) => [f.plan.kind, f] as const))('both engines catch %s', (_kind, { plan, expect: want }) => {
+    for (const engine of ['stream', 'pushdown'] as const) {
+      const report = wide[engine].get(plan.date)!;
+      const finding = report.findings.find((f) => f.feature === want.feature && f.check === want.check && (want.rule === undefined || f.rule === want.rule));
+      expect(finding, `${engine}: ${want.feature ?? 'dataset'} ${want.check}`).toBeDefined();
+      expect(LEVEL[finding!.status], `${engine}: ${finding!.summary}`).toBeGreaterThanOrEqual(LEVEL[want.atLeast]);
+    }
+  });
+
+  it('agrees in the jsonb layout, type errors included', () => {
+    for (const d of [addDays(JSONB_START, 7), addDays(JSONB_START, 8)]) expectAgreement(jsonb.stream.get(d)!, jsonb.pushdown.get(d)!);
+    const typeErrors = jsonb.pushdown.get(addDays(JSONB_START, 8))!.findings.find((f) => f.feature === 'review_count' && f.check === 'type_error_ratio');
+    expect(typeErrors?.status).toBe('critical');
+    expect(typeErrors?.evidence['typeErrors']).toBeGreaterThan(0);
+  });
+
+  it('places values in bins on the server exactly as assignBin does (right-closed intervals, point masses, -0, neighbours of edges)', async () => {
+    // A baseline with a point mass at 0 (40 % zeros), ties and a spread of other values.
+    const sample = Float64Array.from([...Array.from({ length: 40 }, () => 0), ...Array.from({ length: 60 }, (_, i) => (i % 20) * 0.25 - 1)]).sort();
+    const coarse = binEdgesFromSorted(sample, 5);
+    const fine = fineBinsFromSorted(sample, coarse);
+    const probes: number[] = [-0, Number.MIN_VALUE, -Number.MIN_VALUE, -1e300, 1e300, Number.MAX_VALUE, -Number.MAX_VALUE];
+    for (const e of fine.edges) probes.push(e, e + Math.abs(e) * 1e-15 + 1e-300, e - Math.abs(e) * 1e-15 - 1e-300, e + 0.1, e - 0.1);
+    for (const spec of [coarse, fine] as BinSpec[]) {
+      const res = await admin.query<{ b: number }>(`SELECT width_bucket(v, $2::float8[]) AS b FROM unnest($1::float8[]) WITH ORDINALITY AS t(v, i) ORDER BY i`, [probes, widthBucketThresholds(spec)]);
+      expect(res.rows.map((r) => r.b)).toEqual(probes.map((x) => assignBin(spec, x)));
+    }
+    // Every fine bin lies in one PSI bin, and the map says which.
+    const map = refinementMap(coarse, fine);
+    for (const x of probes) expect(map[assignBin(fine, x)]).toBe(assignBin(coarse, x));
+
+    // One width_bucket call also tells NaN, the infinities and out-of-range values apart.
+    const range = { min: -0.5, max: 3 };
+    const coding = valueCoding(fine, range);
+    const all = [...probes, Number.NaN, Number.POSITIVE_INFINITY, Number.NEGATIVE_INFINITY, -0.5, 3, 3.0000000000000004, -0.5000000000000001];
+    const res = await admin.query<{ b: number }>(`SELECT width_bucket(v, $2::float8[]) AS b FROM unnest($1::float8[]) WITH ORDINALITY AS t(v, i) ORDER BY i`, [all, coding.thresholds]);
+    const expected = all.map((x) =>
+      Number.isNaN(x) ? { kind: 'nan' } : x === Infinity ? { kind: 'posInf' } : x === -Infinity ? { kind: 'negInf' } : { kind: 'finite', bin: assignBin(fine, x), outOfRange: x < range.min || x > range.max },
+    );
+    expect(res.rows.map((r) => coding.decode(r.b))).toEqual(expected);
+  });
+});
