@@ -47,6 +47,46 @@ function topBins(result: PsiResult, labels: readonly string[]): BinEvidence[] {
     .slice(0, TOP_BINS);
 }
 
+/**
+ * A PSI finding: status by effect size (thresholds), but ok while PSI stays within its
+ * no-drift noise floor, (1/n + 1/m) x the chi-square(B - 1) quantile over the B bins in use.
+ */
+function psiFinding(p: {
+  feature: string | null;
+  check: 'psi' | 'list_size_psi';
+  result: PsiResult;
+  labels: readonly string[];
+  t: AboveThreshold;
+  n: number;
+  m: number;
+  quantile: number;
+  /** The summary, given the status and the noise floor. */
+  summary: (status: Status, floor: number) => string;
+  evidence?: Record<string, unknown>;
+}): FindingDraft {
+  const { result, t, n, m } = p;
+  const binsUsed = result.baselineShares.filter((b, i) => b > 0 || result.currentShares[i]! > 0).length;
+  const noiseFloor = binsUsed > 1 && n > 0 && m > 0 ? psiNoiseFloor(n, m, binsUsed, p.quantile) : 0;
+  const status: Status = result.psi <= noiseFloor ? 'ok' : statusAbove(result.psi, t);
+  return {
+    feature: p.feature,
+    check: p.check,
+    rule: null,
+    value: result.psi,
+    score: result.psi,
+    status,
+    thresholds: applied(t),
+    summary: p.summary(status, noiseFloor),
+    evidence: { ...p.evidence, n, m, noiseFloor, bins: topBins(result, p.labels), binsUsed },
+  };
+}
+
+/** A yes/no finding: critical when raised (value 1), ok otherwise (value 0). */
+function flagFinding(feature: string | null, check: CheckName, raised: boolean, summary: string, evidence: Record<string, unknown>): FindingDraft {
+  const v = raised ? 1 : 0;
+  return { feature, check, rule: null, value: v, score: v, status: raised ? 'critical' : 'ok', thresholds: { type: 'flag' }, summary, evidence };
+}
+
 /** A finding on the increase of a ratio over its baseline value. */
 function increaseFinding(
   feature: string | null,
@@ -117,17 +157,15 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
   if (base !== undefined && ctx.hasBaseline && base.sortedSample.length > 0) {
     // A feature stuck at one value, where the baseline varied.
     const stuck = cur.distinct === 1 && cur.sortedSample.length > 1 && base.distinct > 1;
-    out.push({
-      feature: f.name,
-      check: 'constant',
-      rule: null,
-      value: stuck ? 1 : 0,
-      score: stuck ? 1 : 0,
-      status: stuck ? 'critical' : 'ok',
-      thresholds: { type: 'flag' },
-      summary: stuck ? `every value is ${fmt(cur.sortedSample[0])} (baseline had ${base.distinct} distinct values)` : `varies (${cur.distinct} distinct values)`,
-      evidence: { baseline: base.distinct, current: cur.distinct, value: stuck ? cur.sortedSample[0] : null },
-    });
+    out.push(
+      flagFinding(
+        f.name,
+        'constant',
+        stuck,
+        stuck ? `every value is ${fmt(cur.sortedSample[0])} (baseline had ${base.distinct} distinct values)` : `varies (${cur.distinct} distinct values)`,
+        { baseline: base.distinct, current: cur.distinct, value: stuck ? cur.sortedSample[0] : null },
+      ),
+    );
 
     // Distinct values on equal-size samples, so a quiet day is not a "collapse".
     if (f.kind === 'numeric' && cur.sortedSample.length > 1) {
@@ -154,26 +192,22 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
     const spec = ctx.baseline.bins[f.name];
     if (spec !== undefined && cur.binCounts.length === base.binCounts.length) {
       const r = psi(base.binCounts, cur.binCounts);
-      const labels = [...binLabels(spec), 'missing'];
-      const usedBins = base.binCounts.filter((c, i) => c > 0 || (cur.binCounts[i] ?? 0) > 0).length;
-      // The baseline's bin shares come from its value sample: that is its sample size.
-      const n = base.sortedSample.length;
-      const m = cur.quality.rows;
-      const floor = usedBins > 1 && n > 0 && m > 0 ? psiNoiseFloor(n, m, usedBins, config.thresholds.psiNoiseQuantile) : 0;
       const t = threshold(config, f, 'psi');
-      const raw = statusAbove(r.psi, t);
-      const status: Status = r.psi <= floor ? 'ok' : raw;
-      out.push({
-        feature: f.name,
-        check: 'psi',
-        rule: null,
-        value: r.psi,
-        score: r.psi,
-        status,
-        thresholds: applied(t),
-        summary: `PSI ${fmt(r.psi)} (${status}; warn >= ${t.warn}, critical >= ${t.critical}; noise floor ${fmt(floor)})`,
-        evidence: { baseline: base.mean, current: cur.mean, n, m, noiseFloor: floor, bins: topBins(r, labels), binsUsed: usedBins },
-      });
+      out.push(
+        psiFinding({
+          feature: f.name,
+          check: 'psi',
+          result: r,
+          labels: [...binLabels(spec), 'missing'],
+          t,
+          // The baseline's bin shares come from its value sample: that is its sample size.
+          n: base.sortedSample.length,
+          m: cur.quality.rows,
+          quantile: config.thresholds.psiNoiseQuantile,
+          summary: (status, floor) => `PSI ${fmt(r.psi)} (${status}; warn >= ${t.warn}, critical >= ${t.critical}; noise floor ${fmt(floor)})`,
+          evidence: { baseline: base.mean, current: cur.mean },
+        }),
+      );
     }
 
     // Pushdown engine: KS D from the day's counts over the baseline's fine bins, with its error bound.
@@ -316,22 +350,19 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
     const withNull = (p: CategoricalProfile): Record<string, number> => ({ ...p.categories, ...(p.quality.nulls > 0 ? { '(null)': p.quality.nulls } : {}) });
     const r = categoryPsi(withNull(base), withNull(cur));
     const t = threshold(config, f, 'psi');
-    const m = q.rows;
-    const n = base.quality.rows;
-    const floor = r.categories.length > 1 ? psiNoiseFloor(n, m, r.categories.length, config.thresholds.psiNoiseQuantile) : 0;
-    const raw = statusAbove(r.psi, t);
-    const status: Status = r.psi <= floor ? 'ok' : raw;
-    out.push({
-      feature: f.name,
-      check: 'psi',
-      rule: null,
-      value: r.psi,
-      score: r.psi,
-      status,
-      thresholds: applied(t),
-      summary: `PSI ${fmt(r.psi)} over ${r.categories.length} categories (${status}; warn >= ${t.warn}, critical >= ${t.critical})`,
-      evidence: { n, m, noiseFloor: floor, bins: topBins(r, r.categories.map((c) => `category ${JSON.stringify(c)}`)) },
-    });
+    out.push(
+      psiFinding({
+        feature: f.name,
+        check: 'psi',
+        result: r,
+        labels: r.categories.map((c) => `category ${JSON.stringify(c)}`),
+        t,
+        n: base.quality.rows,
+        m: q.rows,
+        quantile: config.thresholds.psiNoiseQuantile,
+        summary: (status) => `PSI ${fmt(r.psi)} over ${r.categories.length} categories (${status}; warn >= ${t.warn}, critical >= ${t.critical})`,
+      }),
+    );
     const tn = threshold(config, f, 'new_category_ratio');
     const newStatus = statusAbove(r.unseenShare, tn);
     out.push({
@@ -347,17 +378,7 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
       evidence: { current: r.unseenShare, unseen: r.unseen.slice(0, 10), unseenCount: r.unseen.length },
     });
     const stuck = cur.distinct === 1 && base.distinct > 1 && q.finite > 1;
-    out.push({
-      feature: f.name,
-      check: 'constant',
-      rule: null,
-      value: stuck ? 1 : 0,
-      score: stuck ? 1 : 0,
-      status: stuck ? 'critical' : 'ok',
-      thresholds: { type: 'flag' },
-      summary: stuck ? `one category only (baseline had ${base.distinct})` : `${cur.distinct} categories`,
-      evidence: { baseline: base.distinct, current: cur.distinct },
-    });
+    out.push(flagFinding(f.name, 'constant', stuck, stuck ? `one category only (baseline had ${base.distinct})` : `${cur.distinct} categories`, { baseline: base.distinct, current: cur.distinct }));
   }
   out.push(...withinListFindings(ctx, f, base?.withinList ?? null, cur.withinList));
   return out;
@@ -397,22 +418,21 @@ function datasetFindings(ctx: Context): FindingDraft[] {
       const len = Math.max(base.listSizeCounts.length, cur.listSizeCounts.length);
       const pad = (a: number[]): number[] => Array.from({ length: len }, (_, i) => a[i] ?? 0);
       const r = psi(pad(base.listSizeCounts), pad(cur.listSizeCounts));
-      const t = th.list_size_psi;
-      const floor = psiNoiseFloor(base.lists, cur.lists, Math.max(2, r.contributions.filter((_, i) => (base.listSizeCounts[i] ?? 0) > 0 || (cur.listSizeCounts[i] ?? 0) > 0).length), th.psiNoiseQuantile);
-      const raw = statusAbove(r.psi, t);
-      const status: Status = r.psi <= floor ? 'ok' : raw;
       const meanSize = (c: DatasetCounts): number => ratio(c.rows - c.nullListIdRows, c.lists);
-      out.push({
-        feature: null,
-        check: 'list_size_psi',
-        rule: null,
-        value: r.psi,
-        score: r.psi,
-        status,
-        thresholds: applied(t),
-        summary: `list sizes: PSI ${fmt(r.psi)}; mean size ${fmt(meanSize(cur))} (baseline ${fmt(meanSize(base))})`,
-        evidence: { baseline: meanSize(base), current: meanSize(cur), noiseFloor: floor, bins: topBins(r, Array.from({ length: len }, (_, i) => (i === len - 1 ? `size >= ${i + 1}` : `size ${i + 1}`))) },
-      });
+      out.push(
+        psiFinding({
+          feature: null,
+          check: 'list_size_psi',
+          result: r,
+          labels: Array.from({ length: len }, (_, i) => (i === len - 1 ? `size >= ${i + 1}` : `size ${i + 1}`)),
+          t: th.list_size_psi,
+          n: base.lists,
+          m: cur.lists,
+          quantile: th.psiNoiseQuantile,
+          summary: () => `list sizes: PSI ${fmt(r.psi)}; mean size ${fmt(meanSize(cur))} (baseline ${fmt(meanSize(base))})`,
+          evidence: { baseline: meanSize(base), current: meanSize(cur) },
+        }),
+      );
     }
   }
   // Increases over the baseline's rate, even below minDays (see withinListFindings); the rate is 0 without any baseline day.
@@ -445,17 +465,7 @@ function datasetFindings(ctx: Context): FindingDraft[] {
 
 /** A critical dataset-level finding for a day without rows; the other checks do not run. */
 export function snapshotMissingFinding(date: string, reason: string): FindingDraft {
-  return {
-    feature: null,
-    check: 'snapshot_missing',
-    rule: null,
-    value: 1,
-    score: 1,
-    status: 'critical',
-    thresholds: { type: 'flag' },
-    summary: `no snapshot rows for ${date}: ${reason}`,
-    evidence: { current: 0 },
-  };
+  return flagFinding(null, 'snapshot_missing', true, `no snapshot rows for ${date}: ${reason}`, { current: 0 });
 }
 
 /** All findings of one day, before alert hysteresis. */
