@@ -5,15 +5,16 @@
  * store unavailable). Nothing else in Plumbline reads argv or exits the process.
  */
 import { parseArgs } from 'node:util';
-import { connectionsFromEnv, envSetting, loadConfigFile, maskUrl, type Config } from './config/index.ts';
-import { createPool, type Pool } from './db/index.ts';
+import { envSetting, loadConfigFile, maskUrl } from './config/index.ts';
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
 import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
 import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
-import { addDays, dateRange, isIsoDate } from './run/dates.ts';
-import { configFingerprint, runDay } from './run/index.ts';
-import { migrate, Store } from './store/index.ts';
+import { configFingerprint, dateRange, isIsoDate, runDay } from './run/index.ts';
+import { migrate } from './store/index.ts';
+import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
+
+export { openRuntime, type Runtime };
 
 const USAGE = `plumbline ${VERSION}: watches ranking-feature snapshots in PostgreSQL
 
@@ -62,36 +63,6 @@ function configPath(values: Values, positionals: string[]): string {
   const p = values.config ?? positionals[0] ?? envSetting('PLUMBLINE_CONFIG');
   if (p === undefined) throw usageError('--config FILE is required (or PLUMBLINE_CONFIG)');
   return p;
-}
-
-export interface Runtime {
-  config: Config;
-  log: Logger;
-  source: Pool;
-  storePool: Pool;
-  store: Store;
-  close(): Promise<void>;
-}
-
-/** Pools and store for a config; connection strings come from the environment only. */
-export function openRuntime(config: Config, log: Logger, env: Readonly<Record<string, string | undefined>> = process.env): Runtime {
-  const conn = connectionsFromEnv(env);
-  const onError = (which: string) => (err: Error) => log.warn(`${which} connection error`, errorFields(err));
-  const source = createPool({ url: conn.sourceUrl, applicationName: 'plumbline-source', statementTimeoutMs: config.source.statementTimeoutSeconds * 1000, onError: onError('source') });
-  // A pool of its own even when both URLs are the same: source reads never queue behind store writes.
-  const storePool = createPool({ url: conn.storeUrl, applicationName: 'plumbline-store', statementTimeoutMs: 120_000, onError: onError('store') });
-  log.debug('connections', { source: maskUrl(conn.sourceUrl), store: maskUrl(conn.storeUrl) });
-  const store = new Store(storePool, config.store.schema);
-  return {
-    config,
-    log,
-    source,
-    storePool,
-    store,
-    async close() {
-      await Promise.allSettled([source.end(), storePool.end()]);
-    },
-  };
 }
 
 function print(report: Report, format: string | undefined, all: boolean | undefined): void {

@@ -20,7 +20,7 @@ import { migrate } from '../store/index.ts';
 import { DEMO_SCENARIO, scenarioDates } from '../../demo-data/scenario.ts';
 import { loadScenario } from '../../demo-data/load.ts';
 import { startEmbeddedPostgres } from './embedded.ts';
-import type { openRuntime as OpenRuntime } from '../cli.ts';
+import type { openRuntime as OpenRuntime } from '../runtime.ts';
 
 const CONFIG_PATH = fileURLToPath(new URL('../../demo-data/plumbline.demo.yaml', import.meta.url));
 

@@ -13,25 +13,18 @@ import { errorFields, type Logger } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { isIsoDate, runDay } from '../run/index.ts';
 import { migrate, pendingMigrations, type Store } from '../store/index.ts';
+import type { Runtime } from '../runtime.ts';
 import { VERSION } from '../version.ts';
 import { dailyJob, targetDate } from './job.ts';
 import { LeaderLock } from './leader.ts';
 
-export interface ServiceRuntime {
-  config: Config;
-  log: Logger;
-  source: Pool;
-  storePool: Pool;
-  store: Store;
-  close(): Promise<void>;
-}
 
 export interface ServeOptions {
   config: Config;
   log: Logger;
-  openRuntime: (config: Config, log: Logger) => ServiceRuntime;
+  openRuntime: (config: Config, log: Logger) => Runtime;
   /** Optional status page handler (mounted at / by the HTTP server). */
-  page?: (rt: ServiceRuntime) => (path: string, query: URLSearchParams) => Promise<{ status: number; contentType: string; body: string } | null>;
+  page?: (rt: Runtime) => (path: string, query: URLSearchParams) => Promise<{ status: number; contentType: string; body: string } | null>;
   /** Resolves when the service should stop; defaults to SIGTERM or SIGINT. */
   stopSignal?: Promise<string>;
   /** false: serve stored results only, no schedule and no catch-up (the demo's back-filled past). */
