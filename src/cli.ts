@@ -14,8 +14,6 @@ import { migrate } from './store/index.ts';
 import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
 
-export { openRuntime, type Runtime };
-
 const USAGE = `plumbline ${VERSION}: watches ranking-feature snapshots in PostgreSQL
 
 Usage:

@@ -12,7 +12,7 @@ import { PlumblineMetrics, pushAlerts, startHttpServer, type AlertLabels, type R
 import { errorFields, type Logger } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { isIsoDate, runDay } from '../run/index.ts';
-import { migrate, pendingMigrations, type Store } from '../store/index.ts';
+import { migrate, pendingMigrations } from '../store/index.ts';
 import type { Runtime } from '../runtime.ts';
 import { VERSION } from '../version.ts';
 import { dailyJob, targetDate } from './job.ts';

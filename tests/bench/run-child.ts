@@ -5,7 +5,7 @@
  *   npx tsx tests/bench/run-child.ts CONFIG.json DATE
  */
 import { readFileSync } from 'node:fs';
-import { openRuntime } from '../../src/cli.ts';
+import { openRuntime } from '../../src/runtime.ts';
 import { parseConfig } from '../../src/config/index.ts';
 import { createLogger } from '../../src/log.ts';
 import { runDay } from '../../src/run/index.ts';

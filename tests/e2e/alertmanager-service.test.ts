@@ -4,37 +4,19 @@
  * prometheus-alertmanager); the alert is read back through Alertmanager's API v2.
  * (tests/e2e/alertmanager.test.ts covers pushAlerts itself: resolution, resends.)
  */
-import { spawn, type ChildProcess } from 'node:child_process';
-import { accessSync, constants, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
-import { join } from 'node:path';
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadScenario } from '../../demo-data/load.ts';
 import { addDays } from '../../demo-data/scenario.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { startService, stopAllServices, until, withApplicationName } from '../support/service.ts';
+import { findAlertmanager, startAlertmanager, type ChildServer } from '../support/prometheus.ts';
+import { startService, stopAllServices, withApplicationName } from '../support/service.ts';
+import { until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 const IN_CI = process.env.CI === 'true';
-const ALERTMANAGER = ['/usr/bin/prometheus-alertmanager', '/usr/local/bin/alertmanager', '/usr/bin/alertmanager'].find((p) => {
-  try {
-    accessSync(p, constants.X_OK);
-    return true;
-  } catch {
-    return false;
-  }
-});
-
-async function freePort(): Promise<number> {
-  const s = createServer();
-  await new Promise<void>((resolve) => s.listen(0, '127.0.0.1', resolve));
-  const port = (s.address() as { port: number }).port;
-  await new Promise<void>((resolve) => s.close(() => resolve()));
-  return port;
-}
+const ALERTMANAGER = findAlertmanager();
 
 const skipWhy = url === undefined ? 'PLUMBLINE_TEST_DATABASE_URL is not set' : ALERTMANAGER === undefined && !IN_CI ? 'prometheus-alertmanager is not installed' : null;
 
@@ -44,20 +26,13 @@ describe.skipIf(skipWhy !== null)(`serve pushes alerting findings to a real Aler
   const table = `${src}.impressions`;
   const day = addDays(new Date().toISOString().slice(0, 10), -1);
   let admin: pg.Client;
-  let am: ChildProcess | undefined;
+  let am: ChildServer | undefined;
   let amUrl = '';
-  let dir = '';
 
   beforeAll(async () => {
     if (ALERTMANAGER === undefined) throw new Error('prometheus-alertmanager is not installed; CI must install it');
-    dir = mkdtempSync(join(tmpdir(), 'plumbline-am-svc-'));
-    writeFileSync(join(dir, 'alertmanager.yml'), 'route:\n  receiver: nowhere\nreceivers:\n  - name: nowhere\n');
-    const port = await freePort();
-    amUrl = `http://127.0.0.1:${port}`;
-    am = spawn(ALERTMANAGER, [`--config.file=${join(dir, 'alertmanager.yml')}`, `--storage.path=${join(dir, 'data')}`, `--web.listen-address=127.0.0.1:${port}`, '--cluster.listen-address=', '--log.level=warn'], {
-      stdio: 'ignore',
-    });
-    await until('Alertmanager to be ready', 30_000, async () => ((await fetch(`${amUrl}/-/ready`).catch(() => null))?.ok ? true : undefined), 200);
+    am = await startAlertmanager(ALERTMANAGER);
+    amUrl = am.url;
 
     admin = new pg.Client({ connectionString: url });
     await admin.connect();
@@ -71,13 +46,7 @@ describe.skipIf(skipWhy !== null)(`serve pushes alerting findings to a real Aler
 
   afterAll(async () => {
     await stopAllServices();
-    if (am !== undefined && am.exitCode === null) {
-      const exited = new Promise((resolve) => am!.once('exit', resolve));
-      am.kill('SIGTERM');
-      await Promise.race([exited, new Promise((resolve) => setTimeout(resolve, 10_000))]);
-      if (am.exitCode === null) am.kill('SIGKILL');
-    }
-    if (dir !== '') rmSync(dir, { recursive: true, force: true });
+    await am?.stop();
     if (admin !== undefined) {
       await admin.query(`DROP SCHEMA IF EXISTS "${src}" CASCADE; DROP SCHEMA IF EXISTS "${store}" CASCADE`);
       await admin.end();

@@ -5,57 +5,14 @@
  *
  * A missing binary fails the test in CI (CI=true installs it) and skips it elsewhere.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
-import { accessSync, constants, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
-import { delimiter, join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { pushAlerts, type AlertLabels } from '../../src/exporter/index.ts';
+import { findAlertmanager, startAlertmanager, type ChildServer } from '../support/prometheus.ts';
+import { until } from '../support/tools.ts';
 import { sampleReport } from '../unit/exporter/fixtures.ts';
 
-function findBinary(names: string[]): string | null {
-  for (const name of names) {
-    for (const dir of [...(process.env.PATH ?? '').split(delimiter), '/usr/bin', '/usr/local/bin']) {
-      if (dir === '') continue;
-      try {
-        accessSync(join(dir, name), constants.X_OK);
-        return join(dir, name);
-      } catch {
-        /* not here */
-      }
-    }
-  }
-  return null;
-}
-
-const ALERTMANAGER = findBinary(['prometheus-alertmanager', 'alertmanager']);
+const ALERTMANAGER = findAlertmanager();
 const IN_CI = process.env.CI === 'true';
-
-const sleep = (ms: number) => new Promise((resolve) => setTimeout(resolve, ms));
-
-async function until<T>(what: string, limitMs: number, probe: () => Promise<T | undefined>): Promise<T> {
-  const deadline = Date.now() + limitMs;
-  let last: unknown;
-  while (Date.now() < deadline) {
-    try {
-      const v = await probe();
-      if (v !== undefined) return v;
-    } catch (err) {
-      last = err;
-    }
-    await sleep(200);
-  }
-  throw new Error(`timed out waiting for ${what}${last ? `: ${String(last)}` : ''}`);
-}
-
-async function freePort(): Promise<number> {
-  const s = createServer();
-  await new Promise<void>((resolve) => s.listen(0, '127.0.0.1', resolve));
-  const port = (s.address() as { port: number }).port;
-  await new Promise<void>((resolve) => s.close(() => resolve()));
-  return port;
-}
 
 interface GettableAlert {
   labels: Record<string, string>;
@@ -65,41 +22,23 @@ interface GettableAlert {
   status: { state: string };
 }
 
-if (ALERTMANAGER === null && !IN_CI) {
+if (ALERTMANAGER === undefined && !IN_CI) {
   describe.skip('a real Alertmanager (skipped: prometheus-alertmanager is not installed; apt-get install prometheus-alertmanager)', () => {
     it('needs the binary', () => undefined);
   });
 } else {
   describe('pushAlerts to a real Alertmanager', () => {
-    let am: ChildProcess | undefined;
+    let am: ChildServer | undefined;
     let amUrl = '';
-    let dir = '';
-    let amLog = '';
 
     beforeAll(async () => {
-      if (ALERTMANAGER === null) throw new Error('prometheus-alertmanager is not installed; CI must install it (apt-get install prometheus-alertmanager)');
-      dir = mkdtempSync(join(tmpdir(), 'plumbline-am-'));
-      writeFileSync(join(dir, 'alertmanager.yml'), 'route:\n  receiver: nowhere\nreceivers:\n  - name: nowhere\n');
-      const port = await freePort();
-      amUrl = `http://127.0.0.1:${port}`;
-      am = spawn(
-        ALERTMANAGER,
-        [`--config.file=${join(dir, 'alertmanager.yml')}`, `--storage.path=${join(dir, 'data')}`, `--web.listen-address=127.0.0.1:${port}`, '--cluster.listen-address=', '--log.level=warn'],
-        { stdio: ['ignore', 'pipe', 'pipe'] },
-      );
-      am.stdout?.on('data', (c: Buffer) => (amLog += c.toString()));
-      am.stderr?.on('data', (c: Buffer) => (amLog += c.toString()));
-      await until(`Alertmanager to be ready (${amLog})`, 30_000, async () => ((await fetch(`${amUrl}/-/ready`)).ok ? true : undefined));
+      if (ALERTMANAGER === undefined) throw new Error('prometheus-alertmanager is not installed; CI must install it (apt-get install prometheus-alertmanager)');
+      am = await startAlertmanager(ALERTMANAGER);
+      amUrl = am.url;
     });
 
     afterAll(async () => {
-      if (am && am.exitCode === null) {
-        const exited = new Promise((resolve) => am!.once('exit', resolve));
-        am.kill('SIGTERM');
-        await Promise.race([exited, sleep(10_000)]);
-        if (am.exitCode === null) am.kill('SIGKILL');
-      }
-      if (dir) rmSync(dir, { recursive: true, force: true });
+      await am?.stop();
     });
 
     async function alerts(): Promise<GettableAlert[]> {

@@ -6,15 +6,16 @@
  * and the container image runs as a non-root user.
  */
 import { spawnSync } from 'node:child_process';
-import { accessSync, chmodSync, constants, mkdtempSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, readdirSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
-import { delimiter, join, relative } from 'node:path';
+import { join, relative } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parseAllDocuments, parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/index.ts';
 import { ALL_ALERTS, DEFAULT_RUNBOOK_URL, alertNameFor, runbookAnchor } from '../../src/exporter/index.ts';
 import { CHECK_KIND, type CheckName } from '../../src/report/contract.ts';
+import { findExecutable } from '../support/tools.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
 const DEPLOY = join(ROOT, 'deploy');
@@ -229,19 +230,6 @@ function parseUnit(text: string): Map<string, Map<string, string[]>> {
   return sections;
 }
 
-function findBinary(name: string): string | null {
-  for (const dir of [...(process.env.PATH ?? '').split(delimiter), '/usr/bin', '/bin']) {
-    if (dir === '') continue;
-    try {
-      accessSync(join(dir, name), constants.X_OK);
-      return join(dir, name);
-    } catch {
-      /* not here */
-    }
-  }
-  return null;
-}
-
 describe('the systemd unit', () => {
   const text = read('systemd/plumbline.service');
   const unit = parseUnit(text);
@@ -268,8 +256,8 @@ describe('the systemd unit', () => {
     expect(service.get('CapabilityBoundingSet')).toEqual(['']);
   });
 
-  const analyze = findBinary('systemd-analyze');
-  if (analyze === null) {
+  const analyze = findExecutable('systemd-analyze');
+  if (analyze === undefined) {
     it.skip('passes systemd-analyze verify (skipped: systemd-analyze is not installed)', () => undefined);
   } else {
     it('passes systemd-analyze verify without a warning', () => {

@@ -9,9 +9,7 @@
  *
  * Missing `prometheus` fails the test in CI (CI=true) and skips it elsewhere.
  */
-import { spawn, type ChildProcess } from 'node:child_process';
-import { accessSync, constants, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
+import { mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pg from 'pg';
@@ -23,18 +21,13 @@ import { alertNameFor, HEALTH_ALERTS, severityFor } from '../../src/exporter/ind
 import type { Report } from '../../src/report/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { REPO_ROOT, startService, stopAllServices, until, withApplicationName, type ServiceProcess } from '../support/service.ts';
+import { findPrometheus, startPrometheus, type ChildServer } from '../support/prometheus.ts';
+import { REPO_ROOT, startService, stopAllServices, withApplicationName, type ServiceProcess } from '../support/service.ts';
+import { until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 const IN_CI = process.env.CI === 'true';
-const PROMETHEUS = ['/usr/bin/prometheus', '/usr/local/bin/prometheus'].find((p) => {
-  try {
-    accessSync(p, constants.X_OK);
-    return true;
-  } catch {
-    return false;
-  }
-});
+const PROMETHEUS = findPrometheus();
 const RULES = join(REPO_ROOT, 'deploy/prometheus/plumbline.rules.yml');
 const BASELINE_DAYS = 7;
 
@@ -43,14 +36,6 @@ interface PromAlert {
   annotations: Record<string, string>;
   state: 'pending' | 'firing';
   value: string;
-}
-
-async function freePort(): Promise<number> {
-  const s = createServer();
-  await new Promise<void>((resolve) => s.listen(0, '127.0.0.1', resolve));
-  const port = (s.address() as { port: number }).port;
-  await new Promise<void>((resolve) => s.close(() => resolve()));
-  return port;
 }
 
 /** The shipped rules with every `for:` set to 0s, so alerts fire on the first evaluation. */
@@ -75,9 +60,8 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
   let svc: ServiceProcess;
   let report: Report;
   let dir: string;
-  let prom: ChildProcess | undefined;
+  let prom: ChildServer | undefined;
   let promUrl = '';
-  let promLog = '';
 
   beforeAll(async () => {
     if (PROMETHEUS === undefined) throw new Error('prometheus is not installed; CI must install Debian\'s prometheus package (apt-get install prometheus)');
@@ -109,29 +93,17 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
 
     dir = mkdtempSync(join(tmpdir(), 'plumbline-alerting-'));
     writeFileSync(join(dir, 'plumbline.rules.yml'), rulesForTest());
-    const port = await freePort();
-    promUrl = `http://127.0.0.1:${port}`;
     const promConfig = {
       global: { scrape_interval: '1s', evaluation_interval: '1s' },
       rule_files: [join(dir, 'plumbline.rules.yml')],
       scrape_configs: [{ job_name: 'plumbline', static_configs: [{ targets: [new URL(svc.url).host] }] }],
     };
-    writeFileSync(join(dir, 'prometheus.yml'), JSON.stringify(promConfig));
-    prom = spawn(PROMETHEUS, [`--config.file=${join(dir, 'prometheus.yml')}`, `--storage.tsdb.path=${join(dir, 'data')}`, `--web.listen-address=127.0.0.1:${port}`, '--log.level=warn'], {
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
-    prom.stdout?.on('data', (c: Buffer) => (promLog += c.toString()));
-    prom.stderr?.on('data', (c: Buffer) => (promLog += c.toString()));
-    await until('Prometheus to be ready', 60_000, async () => ((await fetch(`${promUrl}/-/ready`)).ok ? true : undefined), 200);
+    prom = await startPrometheus(PROMETHEUS, promConfig);
+    promUrl = prom.url;
   }, 110_000);
 
   afterAll(async () => {
-    if (prom !== undefined && prom.exitCode === null && prom.signalCode === null) {
-      const exited = new Promise((resolve) => prom!.once('exit', resolve));
-      prom.kill('SIGTERM');
-      await Promise.race([exited, new Promise((resolve) => setTimeout(resolve, 10_000))]);
-      if (prom.exitCode === null && prom.signalCode === null) prom.kill('SIGKILL');
-    }
+    await prom?.stop();
     await stopAllServices();
     if (dir !== undefined) rmSync(dir, { recursive: true, force: true });
     if (admin !== undefined) {
@@ -215,10 +187,9 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
   });
 
   it('stops Prometheus cleanly', async () => {
-    const exited = new Promise<number | null>((resolve) => prom!.once('exit', (code) => resolve(code)));
-    prom!.kill('SIGTERM');
-    const code = await until('Prometheus to exit', 20_000, async () => Promise.race([exited, new Promise<undefined>((r) => setTimeout(() => r(undefined), 200))]));
-    expect(code, promLog).toBe(0);
+    // SIGTERM; a Prometheus still running after 20 s is killed, and the exit is then not 0.
+    const exit = await prom!.stop(20_000);
+    expect(exit.code, prom!.output()).toBe(0);
     expect(await svc.stop()).toEqual({ code: 0, signal: null });
   });
 });

@@ -6,15 +6,15 @@
  *
  * Missing tools fail the test in CI (CI=true installs them) and skip it elsewhere.
  */
-import { spawn, spawnSync, type ChildProcess } from 'node:child_process';
-import { accessSync, constants, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
-import { delimiter, join } from 'node:path';
+import { spawnSync } from 'node:child_process';
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parse } from 'yaml';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { ALL_ALERTS, PlumblineMetrics, startHttpServer, type ExpositionFormat, type HttpDeps, type RunningHttpServer } from '../../src/exporter/index.ts';
+import { findPrometheus, startPrometheus, type ChildServer } from '../support/prometheus.ts';
+import { findExecutable, until } from '../support/tools.ts';
 import { sampleReport } from '../unit/exporter/fixtures.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -23,26 +23,12 @@ const RULES = join(PROM_DIR, 'plumbline.rules.yml');
 const RULE_TESTS = join(PROM_DIR, 'plumbline.rules.test.yml');
 const IN_CI = process.env.CI === 'true';
 
-function findBinary(name: string): string | null {
-  for (const dir of [...(process.env.PATH ?? '').split(delimiter), '/usr/bin', '/usr/local/bin']) {
-    if (dir === '') continue;
-    const candidate = join(dir, name);
-    try {
-      accessSync(candidate, constants.X_OK);
-      return candidate;
-    } catch {
-      /* not here */
-    }
-  }
-  return null;
-}
-
-const PROMTOOL = findBinary('promtool');
-const PROMETHEUS = findBinary('prometheus');
+const PROMTOOL = findExecutable('promtool');
+const PROMETHEUS = findPrometheus();
 
 /** describe() that skips with a reason outside CI and fails inside CI when the tool is missing. */
-function withTool(tool: string | null, name: string, title: string, body: (bin: string) => void): void {
-  if (tool !== null) {
+function withTool(tool: string | undefined, name: string, title: string, body: (bin: string) => void): void {
+  if (tool !== undefined) {
     describe(title, () => body(tool));
   } else if (IN_CI) {
     describe(title, () => {
@@ -152,38 +138,10 @@ function depsFor(metrics: PlumblineMetrics): HttpDeps {
   };
 }
 
-async function freePort(): Promise<number> {
-  const s = createServer();
-  await new Promise<void>((resolve) => s.listen(0, '127.0.0.1', resolve));
-  const port = (s.address() as { port: number }).port;
-  await new Promise<void>((resolve) => s.close(() => resolve()));
-  return port;
-}
-
-const sleep = (ms: number) => new Promise((resolve) => setTimeout(resolve, ms));
-
-/** Polls `probe` until it returns a value, at most `limitMs` (bounded: the test fails rather than hangs). */
-async function until<T>(what: string, limitMs: number, probe: () => Promise<T | undefined>): Promise<T> {
-  const deadline = Date.now() + limitMs;
-  let last: unknown;
-  while (Date.now() < deadline) {
-    try {
-      const v = await probe();
-      if (v !== undefined) return v;
-    } catch (err) {
-      last = err;
-    }
-    await sleep(250);
-  }
-  throw new Error(`timed out waiting for ${what}${last ? `: ${String(last)}` : ''}`);
-}
-
 withTool(PROMETHEUS, 'prometheus', 'a real Prometheus scraping Plumbline and evaluating the rules', (prometheusBin) => {
   let server: RunningHttpServer;
-  let prom: ChildProcess;
+  let prom: ChildServer | undefined;
   let promUrl: string;
-  let dir: string;
-  let promLog = '';
   const formats: ExpositionFormat[] = [];
 
   beforeAll(async () => {
@@ -198,32 +156,18 @@ withTool(PROMETHEUS, 'prometheus', 'a real Prometheus scraping Plumbline and eva
     };
     server = await startHttpServer(depsFor(metrics), { host: '127.0.0.1', port: 0 });
 
-    dir = mkdtempSync(join(tmpdir(), 'plumbline-prom-'));
     const config = {
       global: { scrape_interval: '1s', evaluation_interval: '1s' },
       rule_files: [RULES],
       scrape_configs: [{ job_name: 'plumbline', static_configs: [{ targets: [`127.0.0.1:${server.port}`] }] }],
     };
-    writeFileSync(join(dir, 'prometheus.yml'), JSON.stringify(config));
-    const port = await freePort();
-    promUrl = `http://127.0.0.1:${port}`;
-    prom = spawn(prometheusBin, [`--config.file=${join(dir, 'prometheus.yml')}`, `--storage.tsdb.path=${join(dir, 'data')}`, `--web.listen-address=127.0.0.1:${port}`, '--log.level=warn'], {
-      stdio: ['ignore', 'pipe', 'pipe'],
-    });
-    prom.stdout?.on('data', (c: Buffer) => (promLog += c.toString()));
-    prom.stderr?.on('data', (c: Buffer) => (promLog += c.toString()));
-    await until('Prometheus to be ready', 60_000, async () => ((await fetch(`${promUrl}/-/ready`)).ok ? true : undefined));
+    prom = await startPrometheus(prometheusBin, config);
+    promUrl = prom.url;
   });
 
   afterAll(async () => {
-    if (prom && prom.exitCode === null) {
-      const exited = new Promise((resolve) => prom.once('exit', resolve));
-      prom.kill('SIGTERM');
-      await Promise.race([exited, sleep(10_000)]);
-      if (prom.exitCode === null) prom.kill('SIGKILL');
-    }
+    await prom?.stop();
     await server?.close();
-    if (dir) rmSync(dir, { recursive: true, force: true });
   });
 
   async function query(q: string): Promise<{ metric: Record<string, string>; value: [number, string] }[]> {
@@ -246,11 +190,11 @@ withTool(PROMETHEUS, 'prometheus', 'a real Prometheus scraping Plumbline and eva
     expect((await query('process_cpu_seconds_total{job="plumbline"}')).length).toBe(1);
     // Prometheus asked for OpenMetrics, and got it.
     expect(formats.length).toBeGreaterThan(0);
-    expect(formats.every((f) => f === 'openmetrics'), `${formats.join(',')} / ${promLog}`).toBe(true);
+    expect(formats.every((f) => f === 'openmetrics'), `${formats.join(',')} / ${prom!.output()}`).toBe(true);
   });
 
   it('still serves clean text to other scrapers after Prometheus took OpenMetrics', async (ctx) => {
-    if (PROMTOOL === null) ctx.skip();
+    if (PROMTOOL === undefined) ctx.skip();
     await until('an OpenMetrics scrape', 60_000, async () => (formats.includes('openmetrics') ? true : undefined));
     const body = await (await fetch(`${server.url}/metrics`)).text();
     expect(body).toContain('# TYPE plumbline_runs_total counter\nplumbline_runs_total 13\n');

@@ -16,7 +16,8 @@ import type { ConfigInput } from '../../src/config/index.ts';
 import type { Report } from '../../src/report/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { runServeExpectingExit, startService, stopAllServices, until, withApplicationName, type LogLine, type ServiceProcess } from '../support/service.ts';
+import { runServeExpectingExit, startService, stopAllServices, withApplicationName, type LogLine, type ServiceProcess } from '../support/service.ts';
+import { until } from '../support/tools.ts';
 import { startTcpProxy, type TcpProxy } from '../support/tcp-proxy.ts';
 
 const url = testDatabaseUrl();

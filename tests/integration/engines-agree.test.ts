@@ -7,13 +7,10 @@ import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { loadScenario } from '../../demo-data/load.ts';
-import { openRuntime, type Runtime } from '../../src/cli.ts';
 import { startEmbeddedPostgres, type EmbeddedPostgres } from '../../src/demo/embedded.ts';
-import { silentLogger } from '../../src/log.ts';
 import type { Report } from '../../src/report/index.ts';
-import { runDay } from '../../src/run/index.ts';
-import { migrate } from '../../src/store/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { runDays } from '../support/run-days.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
 
 const START = '2025-09-01';
@@ -42,17 +39,11 @@ async function runOn(url: string, layout: 'wide' | 'jsonb'): Promise<Report[]> {
   const table = `${src}.impressions`;
   const admin = new pg.Client({ connectionString: url });
   await admin.connect();
-  let rt: Runtime | undefined;
   try {
     await loadScenario(admin, { table, layout, scenario: SCENARIO });
     const config = scenarioConfig(table, { layout, storeSchema: store, overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
-    rt = openRuntime(config, silentLogger, { PLUMBLINE_SOURCE_URL: url });
-    await migrate(rt.storePool, store);
-    const out: Report[] = [];
-    for (const d of RUN_DATES) out.push((await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, d)).report);
-    return out;
+    return [...(await runDays(config, url, RUN_DATES)).values()];
   } finally {
-    await rt?.close();
     await admin.query(`DROP SCHEMA IF EXISTS "${src}" CASCADE; DROP SCHEMA IF EXISTS "${store}" CASCADE`);
     await admin.end();
   }

@@ -5,43 +5,21 @@
  */
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { addDays, scenarioDates, type FaultPlan, type ScenarioOptions } from '../../demo-data/scenario.ts';
+import { addDays, scenarioDates } from '../../demo-data/scenario.ts';
 import { loadScenario } from '../../demo-data/load.ts';
-import { openRuntime, type Runtime } from '../../src/cli.ts';
+import { openRuntime, type Runtime } from '../../src/runtime.ts';
 import { silentLogger } from '../../src/log.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
 import { recordMissingSnapshot, runDay } from '../../src/run/index.ts';
 import { migrate } from '../../src/store/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { BASELINE_DAYS, FAULTS, SCENARIO, START, faultDay } from '../support/fault-days.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
 
 const url = testDatabaseUrl();
-const START = '2025-06-02'; // a Monday
-const BASELINE_DAYS = 14;
-const faultDay = (i: number): string => addDays(START, BASELINE_DAYS + i);
 
-/** One fault per day after a 14-day clean baseline; the expected finding beside each. */
-const FAULTS: { plan: FaultPlan; expect: { feature: string | null; check: string; rule?: string; atLeast: 'warn' | 'critical' } }[] = [
-  { plan: { date: faultDay(0), kind: 'mean_shift', feature: 'semantic_similarity', amount: 0.5 }, expect: { feature: 'semantic_similarity', check: 'ks', atLeast: 'warn' } },
-  { plan: { date: faultDay(1), kind: 'unit_change', feature: 'price', amount: 100 }, expect: { feature: 'price', check: 'psi', atLeast: 'critical' } },
-  { plan: { date: faultDay(2), kind: 'null_spike', feature: 'review_count', amount: 0.2 }, expect: { feature: 'review_count', check: 'null_ratio', atLeast: 'critical' } },
-  { plan: { date: faultDay(3), kind: 'minmax_raw', feature: 'text_match_norm' }, expect: { feature: 'text_match_norm', check: 'rule_violation_ratio', rule: 'minmax', atLeast: 'critical' } },
-  { plan: { date: faultDay(4), kind: 'stuck_default', feature: 'listing_age_days', amount: 0 }, expect: { feature: 'listing_age_days', check: 'constant', atLeast: 'critical' } },
-  { plan: { date: faultDay(5), kind: 'flat_within_lists', feature: 'photo_quality' }, expect: { feature: 'photo_quality', check: 'flat_list_ratio', atLeast: 'critical' } },
-  { plan: { date: faultDay(6), kind: 'list_truncation', amount: 0.4 }, expect: { feature: null, check: 'list_size_psi', atLeast: 'critical' } },
-  { plan: { date: faultDay(7), kind: 'new_category', feature: 'plant_family', amount: 0.3 }, expect: { feature: 'plant_family', check: 'new_category_ratio', atLeast: 'critical' } },
-  { plan: { date: faultDay(8), kind: 'nonfinite', feature: 'text_match', amount: 0.02 }, expect: { feature: 'text_match', check: 'nonfinite_ratio', atLeast: 'critical' } },
-  { plan: { date: faultDay(9), kind: 'duplicate_items', amount: 0.2 }, expect: { feature: null, check: 'duplicate_item_ratio', atLeast: 'critical' } },
-];
-
-const SCENARIO: ScenarioOptions = {
-  startDate: START,
-  days: BASELINE_DAYS + FAULTS.length,
-  listsPerDay: 200,
-  meanListSize: 20,
-  seed: 7,
-  faults: FAULTS.map((f) => f.plan),
-};
+// SCENARIO: 14 clean days from START (a Monday), then FAULTS, one fault a day, each with the
+// finding that must catch it (tests/support/fault-days.ts, shared with pushdown.test.ts).
 
 const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
 

@@ -13,7 +13,7 @@ import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { scenarioDates, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { loadScenario } from '../../demo-data/load.ts';
-import { openRuntime, type Runtime } from '../../src/cli.ts';
+import { openRuntime, type Runtime } from '../../src/runtime.ts';
 import type { Config, ConfigInput } from '../../src/config/index.ts';
 import { silentLogger } from '../../src/log.ts';
 import { recordMissingSnapshot, runDay } from '../../src/run/index.ts';

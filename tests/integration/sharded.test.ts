@@ -13,15 +13,12 @@ import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { createTableSql, loadScenario } from '../../demo-data/load.ts';
-import { openRuntime } from '../../src/cli.ts';
 import type { Config } from '../../src/config/index.ts';
-import { silentLogger } from '../../src/log.ts';
 import type { Report } from '../../src/report/index.ts';
-import { runDay } from '../../src/run/index.ts';
 import { buildPushdownQueries, planSource, preparePushdownSession } from '../../src/source/index.ts';
-import { migrate } from '../../src/store/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { runDays } from '../support/run-days.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
 
 const url = testDatabaseUrl();
@@ -119,13 +116,7 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       const base = scenarioConfig(table, { storeSchema: store, overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
       const config: Config = { ...base, source: { ...base.source, engine: 'pushdown' } };
       if (table === 'src.sharded') shardedConfig = config;
-      const rt = openRuntime(config, silentLogger, { PLUMBLINE_SOURCE_URL: coordUrl });
-      try {
-        await migrate(rt.storePool, store);
-        for (const d of RUN_DATES) out.set(d, (await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, d)).report);
-      } finally {
-        await rt.close();
-      }
+      for (const [d, report] of await runDays(config, coordUrl, RUN_DATES)) out.set(d, report);
     }
   }, 240_000);
 

@@ -9,30 +9,9 @@ import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { until } from './tools.ts';
 
 export const REPO_ROOT = fileURLToPath(new URL('../../', import.meta.url));
-
-const sleep = (ms: number): Promise<void> => new Promise((resolve) => setTimeout(resolve, ms));
-
-/**
- * Polls `probe` every `everyMs` until it returns something other than undefined; fails after
- * `limitMs` with what it waited for and the last error (a bound, so a test fails rather than hangs).
- */
-export async function until<T>(what: string, limitMs: number, probe: () => Promise<T | undefined> | T | undefined, everyMs = 100): Promise<T> {
-  const deadline = Date.now() + limitMs;
-  let last: unknown;
-  for (;;) {
-    try {
-      const v = await probe();
-      if (v !== undefined) return v;
-    } catch (err) {
-      last = err;
-    }
-    if (Date.now() >= deadline) break;
-    await sleep(everyMs);
-  }
-  throw new Error(`timed out after ${limitMs} ms waiting for ${what}${last !== undefined ? ` (last error: ${String(last)})` : ''}`);
-}
 
 /**
  * `url` with its own application_name. pg lets the URL override the name Plumbline sets

@@ -7,10 +7,10 @@
  */
 import { execFile } from 'node:child_process';
 import { existsSync, mkdtempSync, rmSync, chownSync, mkdirSync } from 'node:fs';
-import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { promisify } from 'node:util';
+import { freePort } from './tools.ts';
 
 const run = promisify(execFile);
 
@@ -27,19 +27,6 @@ export interface Shard {
 export interface Shards {
   shards: Shard[];
   stop(): Promise<void>;
-}
-
-/** A TCP port on 127.0.0.1 that was free a moment ago (the OS picks it). */
-function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const srv = createServer();
-    srv.once('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const addr = srv.address();
-      const port = typeof addr === 'object' && addr !== null ? addr.port : 0;
-      srv.close(() => resolve(port));
-    });
-  });
 }
 
 async function postgresIds(): Promise<{ uid: number; gid: number }> {

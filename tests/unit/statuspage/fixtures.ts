@@ -3,26 +3,9 @@
  * a made-up hardware shop. The page only shows these numbers; it computes no statistic.
  */
 import type { BinEvidence, Finding, Report, Status } from '../../../src/report/index.ts';
+import { alerting, finding } from '../../support/report-fixtures.ts';
 
-type FindingInput = Pick<Finding, 'feature' | 'check' | 'value' | 'status'> & Partial<Omit<Finding, 'alert'>> & { alert?: Partial<Finding['alert']> };
-
-export function finding(f: FindingInput): Finding {
-  const { alert, ...rest } = f;
-  return {
-    rule: null,
-    score: f.value,
-    thresholds: { type: 'above', warn: 0.1, critical: 0.25 },
-    summary: `${f.check} ${f.value}`,
-    evidence: {},
-    ...rest,
-    alert: { consecutiveRuns: 0, consecutiveCritical: 0, alerting: false, level: null, since: null, ...alert },
-  };
-}
-
-/** Alert state of a finding that has paged for `runs` runs. */
-export function alerting(level: 'warn' | 'critical', since: string, runs = 2): Partial<Finding['alert']> {
-  return { consecutiveRuns: runs, consecutiveCritical: level === 'critical' ? runs : 0, alerting: true, level, since };
-}
+export { alerting, finding };
 
 export function report(runDate: string, findings: Finding[], overrides: Partial<Report> = {}): Report {
   const worst: Status = findings.some((f) => f.status === 'critical') ? 'critical' : findings.some((f) => f.status === 'warn') ? 'warn' : 'ok';
