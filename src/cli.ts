@@ -180,14 +180,21 @@ export async function main(argv: string[]): Promise<number> {
       return serve({ config, log, openRuntime });
     }
     case 'demo': {
-      // The demo needs demo-data/ from a source checkout; the production build leaves it out.
-      const demo = (await import('./demo/index.ts').catch(() => null)) as typeof import('./demo/index.ts') | null;
-      if (demo === null) throw usageError('the demo runs from a source checkout: npm run demo');
+      // The demo needs demo-data/ from a source checkout, so the production build leaves it
+      // out: the module is named at run time, which keeps the compiler from following it.
+      const demoModule = './demo/index.ts';
+      const demo = (await import(demoModule).catch(() => null)) as DemoModule | null;
+      if (demo === null) throw usageError('the demo runs from a source checkout: npm ci && npm run demo');
       return demo.runDemo({ log, port: values.port === undefined ? undefined : Number(values.port), openRuntime });
     }
     default:
       throw usageError(`unknown command ${JSON.stringify(command)}`);
   }
+}
+
+/** What the CLI needs of src/demo (see the 'demo' command). */
+interface DemoModule {
+  runDemo(options: { log: Logger; port: number | undefined; openRuntime: typeof openRuntime }): Promise<number>;
 }
 
 function report(err: unknown): number {
