@@ -217,21 +217,9 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
     } else if (f.kind === 'numeric' && cur.sortedSample.length > 0) {
       // Two-sample KS on the baseline sample and the day's values (binary features: PSI only).
       const { d, n, m } = ks2Sorted(base.sortedSample, cur.sortedSample);
-      const p = ksPValue(d, n, m);
-      const t = threshold(config, f, 'ks');
-      const draft: FindingDraft = {
-        feature: f.name,
-        check: 'ks',
-        rule: null,
-        value: d,
-        score: d,
-        status: statusAbove(d, t),
-        thresholds: applied(t),
-        summary: '',
-        evidence: { baseline: base.mean, current: cur.mean, n, m, pValue: p.pValue, pValueMethod: p.method, adjustedPValue: null },
-      };
-      ksQueue.push({ draft, p: p.pValue });
-      out.push(draft);
+      const k = ksDraft(ctx, f, base, cur, d, n, m, {});
+      ksQueue.push(k);
+      out.push(k.draft);
     }
   }
 
@@ -279,6 +267,16 @@ function binnedKsFinding(ctx: Context, f: FeatureConfig, base: NumericProfile, c
     if (gap > d) d = gap;
     if (singleton[i] === 0) bound = Math.max(bound, baseCounts[i]! / n, counts[i]! / m);
   }
+  const k = ksDraft(ctx, f, base, cur, d, n, m, { ksMethod: 'binned', fineBins: counts.length, dErrorBound: bound, dUpperBound: Math.min(1, d + bound) });
+  out.push(k.draft);
+  return k;
+}
+
+/**
+ * A KS finding before the Benjamini-Hochberg step: status by D against its thresholds;
+ * evaluateDay then gates it on the adjusted p-value and writes the summary.
+ */
+function ksDraft(ctx: Context, f: FeatureConfig, base: NumericProfile, cur: NumericProfile, d: number, n: number, m: number, evidence: Record<string, unknown>): { draft: FindingDraft; p: number } {
   const p = ksPValue(Math.min(1, d), n, m);
   const t = threshold(ctx.config, f, 'ks');
   const draft: FindingDraft = {
@@ -290,21 +288,8 @@ function binnedKsFinding(ctx: Context, f: FeatureConfig, base: NumericProfile, c
     status: statusAbove(d, t),
     thresholds: applied(t),
     summary: '',
-    evidence: {
-      baseline: base.mean,
-      current: cur.mean,
-      n,
-      m,
-      pValue: p.pValue,
-      pValueMethod: p.method,
-      adjustedPValue: null,
-      ksMethod: 'binned',
-      fineBins: counts.length,
-      dErrorBound: bound,
-      dUpperBound: Math.min(1, d + bound),
-    },
+    evidence: { baseline: base.mean, current: cur.mean, n, m, pValue: p.pValue, pValueMethod: p.method, adjustedPValue: null, ...evidence },
   };
-  out.push(draft);
   return { draft, p: p.pValue };
 }
 
