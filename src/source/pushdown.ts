@@ -121,16 +121,6 @@ export function valueCoding(spec: BinSpec | undefined, range: { min?: number; ma
   if (range?.max !== undefined && Number.isFinite(range.max) && Number.isFinite(nextUp(range.max))) cuts.add(nextUp(range.max));
   const u = [...cuts].sort((a, b) => a - b);
   const thresholds = [-Number.MAX_VALUE, ...u, Number.POSITIVE_INFINITY, Number.NaN];
-  const countAtMost = (t: number[], v: number): number => {
-    let lo = 0;
-    let hi = t.length;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (t[mid]! <= v) lo = mid + 1;
-      else hi = mid;
-    }
-    return lo;
-  };
   // Finite bucket j holds the doubles in [thresholds[j - 1], thresholds[j]); its first one decides.
   const finiteBuckets = u.length + 1;
   const bins = new Int32Array(finiteBuckets + 1);
@@ -150,6 +140,18 @@ export function valueCoding(spec: BinSpec | undefined, range: { min?: number; ma
   };
 }
 
+/** How many entries of the ascending array `t` are <= v (binary search). */
+function countAtMost(t: readonly number[], v: number): number {
+  let lo = 0;
+  let hi = t.length;
+  while (lo < hi) {
+    const mid = (lo + hi) >>> 1;
+    if (t[mid]! <= v) lo = mid + 1;
+    else hi = mid;
+  }
+  return lo;
+}
+
 /**
  * For each bin of `fine`, the bin of `coarse` that holds it; throws when `fine` does not
  * refine `coarse` (a fine bin straddling a coarse boundary).
@@ -162,17 +164,7 @@ export function refinementMap(coarse: BinSpec, fine: BinSpec): number[] {
     if (!fineSet.has(x)) throw new DataError(`the fine bins do not refine the PSI bins (no fine boundary at ${x})`);
   }
   // Bin b of `fine` holds the doubles in [tf[b-1], tf[b]); its first double decides.
-  const count = (t: number[], v: number): number => {
-    let lo = 0;
-    let hi = t.length;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (t[mid]! <= v) lo = mid + 1;
-      else hi = mid;
-    }
-    return lo;
-  };
-  return Array.from({ length: tf.length + 1 }, (_, b) => (b === 0 ? 0 : count(tc, tf[b - 1]!)));
+  return Array.from({ length: tf.length + 1 }, (_, b) => (b === 0 ? 0 : countAtMost(tc, tf[b - 1]!)));
 }
 
 class Params {
