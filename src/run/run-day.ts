@@ -100,7 +100,7 @@ async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: 
  */
 async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayProfile> {
   const t0 = performance.now();
-  const { agg, cols } = await withReadOnlyTransaction(deps.source, async (client) => {
+  const { agg, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, deps.config, plan, date, specs);
     const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
     return { agg, cols };
