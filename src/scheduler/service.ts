@@ -7,7 +7,7 @@
 import { createTask, type ScheduledTask } from 'node-cron';
 import type { Config } from '../config/index.ts';
 import { isConnectionError, type Pool } from '../db/index.ts';
-import { exitCodeFor, EXIT } from '../errors.ts';
+import { exitCodeFor, EXIT, SourceError, StoreError } from '../errors.ts';
 import { PlumblineMetrics, pushAlerts, startHttpServer, type AlertLabels, type RunningHttpServer } from '../exporter/index.ts';
 import { errorFields, type Logger } from '../log.ts';
 import type { Report } from '../report/index.ts';
@@ -341,12 +341,21 @@ export async function serve(options: ServeOptions): Promise<number> {
   return EXIT.ok;
 }
 
-/** Connection trouble heals by itself; stores and sources wrap the driver's error as `cause`. */
-function isTransient(err: unknown): boolean {
+/**
+ * Connection trouble heals by itself. Stores and sources wrap the driver's error as `cause`:
+ * transient is a connection SQLSTATE or socket code anywhere in the chain, or a source or
+ * store failure whose root is an error without any code (pg reports a connection lost
+ * mid-query that way; a problem the server reported always carries its SQLSTATE).
+ */
+export function isTransient(err: unknown): boolean {
+  let wrapped = false;
+  let root: unknown = err;
   for (let e = err, depth = 0; e !== null && e !== undefined && depth < 5; e = (e as { cause?: unknown }).cause, depth++) {
     if (isConnectionError(e)) return true;
+    if (e instanceof SourceError || e instanceof StoreError) wrapped = true;
+    root = e;
   }
-  return false;
+  return wrapped && root !== err && root instanceof Error && (root as { code?: unknown }).code === undefined;
 }
 
 /**
