@@ -12,22 +12,17 @@
  */
 import { Counter, Gauge, Registry, collectDefaultMetrics, openMetricsContentType, prometheusContentType, type OpenMetricsContentType } from 'prom-client';
 import { STATUS_LEVEL, type Finding, type Report } from '../report/contract.ts';
+import type { RunStats } from '../store/index.ts';
 
-/** The monitor's own state as the store remembers it; used to refill the health metrics at start. */
-export interface MonitorHealth {
-  /** ISO timestamp of the newest successful run's completion, or null when none succeeded yet. */
-  lastSuccessAt: string | null;
-  /** ISO timestamp of the newest run's completion, success or failure. */
-  lastRunAt: string | null;
-  lastDurationSeconds: number | null;
-  lastOutcome: 'success' | 'failure' | null;
-  /** Totals over the store's whole history: the run counters continue from them. */
-  successes: number;
-  failures: number;
+/**
+ * The monitor's own state: the store's run statistics (used to refill the health metrics at
+ * start; the run counters continue from its totals) plus what this process sees now.
+ */
+export type MonitorHealth = Omit<RunStats, 'lastError'> & {
   sourceUp: boolean;
   storeUp: boolean;
   leader: boolean;
-}
+};
 
 export interface RunOutcome {
   ok: boolean;

@@ -4,7 +4,7 @@
  * Sunday, exactly as it would in one long column.
  */
 import type { Config } from '../config/index.ts';
-import { binEdgesFromSorted, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { binEdgesFromSorted, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
 
@@ -137,7 +137,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       }
       features[f.name] = {
         kind: 'categorical',
-        quality: quality ?? emptyQuality(),
+        quality: quality ?? emptyQualityCounts(),
         categories,
         distinct: Object.keys(categories).length,
         withinList,
@@ -172,7 +172,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       offset += piece.length;
     }
     merged.sort();
-    const q = quality ?? emptyQuality();
+    const q = quality ?? emptyQualityCounts();
     const spec = binEdgesFromSorted(merged, config.baseline.bins);
     bins[f.name] = spec;
     if (pushdown) fineBins[f.name] = fineBinsFromSorted(merged, spec);
@@ -199,6 +199,3 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
   };
 }
 
-export function emptyQuality(): QualityCounts {
-  return { rows: 0, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 0 };
-}

@@ -12,7 +12,7 @@ import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
-import { buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
+import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
 import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
 import { baselineDates } from './dates.ts';
@@ -207,7 +207,7 @@ export async function recordMissingSnapshot(deps: RunDeps, runDate: string, reas
     fingerprint: '',
     window: { type: deps.config.baseline.window.type, from: runDate, to: runDate },
     days: [],
-    dataset: { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: [], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 },
+    dataset: EMPTY_DATASET,
     bins: {},
     features: {},
     sampleSize: 0,

@@ -30,7 +30,7 @@ import { featureSource, type Config, type FeatureConfig } from '../config/index.
 import { quoteIdent, type PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
-import type { BinSpec, QualityCounts } from '../stats/index.ts';
+import { emptyQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import type { SourcePlan } from './plan.ts';
 
 /** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
@@ -323,10 +323,6 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
 }
 
-function emptyQuality(): QualityCounts {
-  return { rows: 0, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 0 };
-}
-
 /**
  * Session settings for the aggregate statements: JIT compilation makes these wide
  * aggregates slower (measured on this kind of machine), and partition-wise aggregation lets
@@ -385,7 +381,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: {} };
     else {
       const spec = countingSpec(specs, f.name);
-      numeric[f.name] = { quality: emptyQuality(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
+      numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
     }
   }
   for (const r of valueRes.rows) {
@@ -435,7 +431,7 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
     const fromSample = sample.features[f.name];
     if (f.kind === 'categorical') {
       const c = agg.categorical[f.name]!;
-      const quality: QualityCounts = { ...emptyQuality(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
+      const quality: QualityCounts = { ...emptyQualityCounts(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
       const profile: CategoricalProfile = { kind: 'categorical', quality, categories: c.categories, distinct: Object.keys(c.categories).length, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
       features[f.name] = profile;
       continue;

@@ -19,6 +19,7 @@ export {
   MISSING_PRESENT,
   MISSING_TYPE_ERROR,
   distinctCountSorted,
+  emptyQualityCounts,
   mergeQualityCounts,
   qualityCounts,
 } from './quality.ts';

@@ -88,6 +88,11 @@ export function qualityCounts(
   return { rows, nulls, nan, posInf, negInf, typeErrors, outOfRange, finite };
 }
 
+/** Quality counts of no rows: the identity of mergeQualityCounts. */
+export function emptyQualityCounts(): QualityCounts {
+  return { rows: 0, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 0 };
+}
+
 /**
  * Sum of two quality counts (for example two chunks of one day, or two partitions).
  * O(1). Example: mergeQualityCounts(a, a).rows => 2 * a.rows.
