@@ -7,8 +7,8 @@
 import type { Config } from '../config/index.ts';
 import { CHECK_KIND, type Finding } from '../report/contract.ts';
 
-export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule'>): string {
-  return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}`;
+export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule' | 'slice'>): string {
+  return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}\u0000${f.slice ?? 'all'}`;
 }
 
 export function applyAlertState(config: Config, runDate: string, drafts: readonly Omit<Finding, 'alert'>[], previous: readonly Finding[] | null): Finding[] {

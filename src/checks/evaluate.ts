@@ -23,7 +23,7 @@ import {
 } from '../stats/index.ts';
 import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
 
-type FindingDraft = Omit<Finding, 'alert'>;
+export type FindingDraft = Omit<Finding, 'alert'>;
 
 /**
  * How many bins a finding keeps as evidence, those that moved most first: every bin of a
@@ -453,6 +453,23 @@ export function snapshotMissingFinding(date: string, reason: string): FindingDra
   return flagFinding(null, 'snapshot_missing', true, `no snapshot rows for ${date}: ${reason}`, { current: 0 });
 }
 
+/**
+ * Benjamini-Hochberg across a family of KS tests (a day's features; src/checks/slices.ts:
+ * every slice of a day): D decides the status, the adjusted p-value gates it.
+ */
+export function gateKs(config: Config, family: readonly { draft: FindingDraft; p: number }[]): void {
+  if (family.length === 0) return;
+  const adjusted = benjaminiHochberg(family.map((k) => k.p));
+  family.forEach(({ draft }, i) => {
+    const adj = adjusted[i]!;
+    draft.evidence.adjustedPValue = adj;
+    const t = draft.thresholds as { warn: number; critical: number };
+    draft.status = adj >= config.thresholds.ksAlpha ? 'ok' : statusAbove(draft.score, t);
+    draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; warn >= ${t.warn}, critical >= ${t.critical}; adjusted p ${fmt(adj)})`;
+    if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
+  });
+}
+
 /** All findings of one day, before alert hysteresis. */
 export function evaluateDay(config: Config, baseline: BaselineProfile, current: DayProfile): FindingDraft[] {
   if (current.dataset.rows === 0) return [snapshotMissingFinding(current.date, 'the source has no rows for this date')];
@@ -466,18 +483,7 @@ export function evaluateDay(config: Config, baseline: BaselineProfile, current: 
     if (cur.kind === 'categorical') findings.push(...categoricalFindings(ctx, f, base as CategoricalProfile | undefined, cur));
     else findings.push(...numericFindings(ctx, f, base as NumericProfile | undefined, cur, ksQueue));
   }
-  // Benjamini-Hochberg across the day's KS tests; D decides, the adjusted p-value gates.
-  if (ksQueue.length > 0) {
-    const adjusted = benjaminiHochberg(ksQueue.map((k) => k.p));
-    ksQueue.forEach(({ draft }, i) => {
-      const adj = adjusted[i]!;
-      draft.evidence.adjustedPValue = adj;
-      const t = draft.thresholds as { warn: number; critical: number };
-      if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
-      draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; warn >= ${t.warn}, critical >= ${t.critical}; adjusted p ${fmt(adj)})`;
-      if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
-    });
-  }
+  gateKs(config, ksQueue);
   findings.push(...datasetFindings(ctx));
   return findings;
 }

@@ -70,6 +70,17 @@ export interface DayProfile {
   totalLists: number;
   sampled: boolean;
   features: Record<string, FeatureProfile>;
+  /** The day's slices (src/profile/slices.ts), in memory only: each is stored as a day profile of its own. */
+  slices?: SliceProfile[];
+  /** As stored: the names of the slices profiled with this day. */
+  sliceNames?: string[];
+}
+
+/** A slice's profile of one day. */
+export interface SliceProfile {
+  slice: string;
+  kind: 'top' | 'segment';
+  profile: DayProfile;
 }
 
 /** The profile of a baseline window, computed once per window and config fingerprint. */
@@ -89,4 +100,6 @@ export interface BaselineProfile {
   features: Record<string, FeatureProfile>;
   sampleSize: number;
   createdAt: string;
+  /** Names of the slices seen on the window's days (each slice's baseline is stored apart). */
+  slices?: string[];
 }

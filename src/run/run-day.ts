@@ -7,14 +7,45 @@
  * result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
-import { applyAlertState, evaluateDay, snapshotMissingFinding } from '../checks/index.ts';
+import { applyAlertState, evaluateSlices, snapshotMissingFinding, type FindingDraft } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
-import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
+import {
+  EMPTY_DATASET,
+  buildDayProfile,
+  buildSliceProfiles,
+  capDayProfile,
+  hasSlices,
+  mergeBaseline,
+  planSlices,
+  planSlicesOfColumns,
+  sliceRows,
+  subsetColumns,
+  threadedProfiler,
+  withFineBins,
+  type BaselineProfile,
+  type DayProfile,
+  type SliceDef,
+  type SliceProfile,
+} from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
-import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
+import {
+  assemblePushdownProfile,
+  checkJsonbKeys,
+  countDays,
+  countDaysBetween,
+  planBaselineRelation,
+  planSource,
+  readDay,
+  readDayAggregates,
+  sliceFilter,
+  tallySegmentsSql,
+  type DayAggregates,
+  type PushdownSpecs,
+  type SourcePlan,
+} from '../source/index.ts';
 import { baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
@@ -56,8 +87,30 @@ export function profileFingerprint(config: Config): string {
     features: config.features.map(({ thresholds: _t, ...f }) => f),
     sampleSize: config.baseline.sampleSize,
     dayCap: daySampleCap(config),
+    // Only when configured, so that day profiles stored before slices existed stay valid.
+    ...(hasSlices(config) ? { slices: config.slices } : {}),
   });
 }
+
+/** The fingerprint under which a slice's day profiles (or baseline) are stored. */
+export function sliceFingerprint(fingerprint: string, slice: string): string {
+  return `${fingerprint}/${slice}`;
+}
+
+/** Values kept per feature, slice and day: enough for any window to pool slices.sampleSize. */
+function sliceDayCap(config: Config): number {
+  const w = config.baseline.window;
+  const days = w.type === 'trailing' ? w.days : w.type === 'same_weekday' ? w.weeks : 28;
+  return Math.max(500, Math.ceil((2 * config.slices.sampleSize) / days));
+}
+
+/** The config a slice's baseline is merged with: the slices' smaller sample size. */
+function sliceConfig(config: Config): Config {
+  return { ...config, baseline: { ...config.baseline, sampleSize: config.slices.sampleSize } };
+}
+
+/** Baseline bins (and the pushdown engine's fine bins) per slice. */
+type SliceSpecs = ReadonlyMap<string, BaselineProfile>;
 
 /** Values kept per feature and day for later baselines: enough for any window to pool sampleSize. */
 export function daySampleCap(config: Config): number {
@@ -84,62 +137,153 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
   if (signal?.aborted) throw signal.reason instanceof Error ? signal.reason : new Error('run aborted');
 }
 
-async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null): Promise<DayProfile> {
-  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null });
+async function readProfile(
+  deps: RunDeps,
+  plan: SourcePlan,
+  date: string,
+  bins: BaselineProfile['bins'] | null,
+  fineBins: BaselineProfile['fineBins'] | null = null,
+  sliceSpecs: SliceSpecs = new Map(),
+): Promise<DayProfile> {
+  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null }, sliceSpecs);
   const t0 = performance.now();
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
+  // Slices first: profiling the whole day consumes the columns.
+  const slices = hasSlices(deps.config) ? await buildSliceProfiles(cols, deps.config, planSlicesOfColumns(deps.config, cols), (name) => sliceSpecs.get(name)?.bins ?? null, threadedProfiler()) : null;
+  const t2 = performance.now();
   const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
-  deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
-  return profile;
+  deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, sliceSeconds: (t2 - t1) / 1000, profileSeconds: (performance.now() - t2) / 1000 });
+  return slices === null ? profile : { ...profile, slices };
 }
 
 /**
  * The pushdown engine: exact counts from aggregate SQL, and a small whole-list sample of
- * the day (through the stream reader) for the value sample, both in one snapshot.
+ * the day (through the stream reader) for the value sample, both in one snapshot. Each
+ * slice is counted by the same two statements restricted to its rows.
  */
-async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayProfile> {
+async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs, sliceSpecs: SliceSpecs): Promise<DayProfile> {
+  const { config } = deps;
   const t0 = performance.now();
-  const { agg, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
-    const agg = await readDayAggregates(client, deps.config, plan, date, specs);
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
-    return { agg, cols };
+  const specsOf = (name: string): PushdownSpecs => {
+    const b = sliceSpecs.get(name);
+    return { bins: b?.bins ?? null, fineBins: b?.fineBins ?? null };
+  };
+  const { agg, cols, defs, sliceAggs } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
+    const agg = await readDayAggregates(client, config, plan, date, specs);
+    let defs: SliceDef[] = [];
+    const sliceAggs: DayAggregates[] = [];
+    if (hasSlices(config)) {
+      defs = planSlices(config, await tallySegmentsSql(client, config, plan, date, agg.dataset.rows));
+      for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
+    }
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length });
+    return { agg, cols, defs, sliceAggs };
   });
   const t1 = performance.now();
-  const sample = await buildDayProfile(cols, deps.config, null, threadedProfiler());
-  const profile = assemblePushdownProfile(date, agg, sample, deps.config, specs);
-  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
-  return profile;
+  const slices: SliceProfile[] = [];
+  for (const [i, def] of defs.entries()) {
+    const sample = await buildDayProfile(subsetColumns(cols, sliceRows(cols, def)), config, null);
+    slices.push({ slice: def.name, kind: def.kind, profile: assemblePushdownProfile(date, sliceAggs[i]!, sample, config, specsOf(def.name)) });
+  }
+  const sample = await buildDayProfile(cols, config, null, threadedProfiler());
+  const profile = assemblePushdownProfile(date, agg, sample, config, specs);
+  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, slices: defs.length, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
+  return hasSlices(config) ? { ...profile, slices } : profile;
 }
 
-/** Loads the baseline of a window from the store, or builds it from stored day profiles and the source. */
-async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineProfile> {
+/** Stores a day's profile for later baselines: the whole day (naming its slices), then each slice apart. */
+async function saveDayProfile(deps: RunDeps, profileFp: string, day: DayProfile): Promise<void> {
+  const { slices, ...whole } = day;
+  const stored: DayProfile = slices === undefined ? whole : { ...whole, sliceNames: slices.map((s) => s.slice) };
+  for (const s of slices ?? []) await deps.store.saveDayProfile(sliceFingerprint(profileFp, s.slice), capDayProfile(s.profile, sliceDayCap(deps.config)));
+  await deps.store.saveDayProfile(profileFp, capDayProfile(stored, daySampleCap(deps.config)));
+}
+
+/** The whole day's baseline and each slice's. */
+interface Baselines {
+  whole: BaselineProfile;
+  slices: Map<string, BaselineProfile>;
+}
+
+/**
+ * Loads the baseline from the store, or builds it from stored day profiles and the source:
+ * the days of the window in the snapshot table, or the dates of the baseline relation
+ * (baseline.source, e.g. the training set). Each slice's baseline is merged from the same
+ * days' profiles of that slice and stored under its own fingerprint.
+ */
+async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<Baselines> {
   const { config, store, log } = deps;
-  const wanted = baselineDates(config.baseline.window, runDate);
-  const rows = await readSource(deps, 'counting the baseline days', (c) => countDays(c, plan, wanted));
-  const dates = wanted.filter((d) => (rows.get(d) ?? 0) > 0);
-  const profileFp = profileFingerprint(config);
+  const relation = config.baseline.source;
+  let basePlan = plan;
+  let rows: Map<string, number>;
+  let dates: string[];
+  let wanted: string[] = [];
+  let profileFp = profileFingerprint(config);
+  if (relation !== undefined) {
+    basePlan = await readSource(deps, 'checking the baseline relation against the config', (c) => planBaselineRelation(c, config));
+    rows = await readSource(deps, `counting the days of ${relation.table}`, (c) => countDaysBetween(c, basePlan, relation.from ?? null, relation.to ?? null));
+    dates = [...rows.keys()];
+    // The relation's days are not the snapshot table's days of the same dates.
+    profileFp = sha256({ profileFp, relation: relation.table });
+  } else {
+    wanted = baselineDates(config.baseline.window, runDate);
+    rows = await readSource(deps, 'counting the baseline days', (c) => countDays(c, plan, wanted));
+    dates = wanted.filter((d) => (rows.get(d) ?? 0) > 0);
+  }
   // Late rows for a baseline day change its count, and with it the fingerprint.
   const fingerprint = sha256({ profileFp, days: dates.map((d) => [d, rows.get(d)]) });
   const cached = await store.loadBaseline(fingerprint);
-  if (cached !== null) return cached;
+  if (cached !== null) {
+    const slices = new Map<string, BaselineProfile>();
+    for (const name of cached.slices ?? []) {
+      const b = await store.loadBaseline(sliceFingerprint(fingerprint, name));
+      if (b !== null) slices.set(name, b);
+    }
+    if (slices.size === (cached.slices ?? []).length) return { whole: cached, slices };
+  }
 
   const stored = await store.loadDayProfiles(profileFp, dates);
   const days: DayProfile[] = [];
+  // Slice profiles of days profiled now (the others are in the store).
+  const fresh = new Map<string, Map<string, DayProfile>>();
   for (const date of dates) {
     throwIfAborted(deps.signal);
     let day = stored.get(date);
     if (day === undefined || day.totalRows !== rows.get(date)) {
-      log.info('profiling baseline day', { date });
-      day = capDayProfile(await readProfile(deps, plan, date, null), daySampleCap(config));
-      await store.saveDayProfile(profileFp, day);
+      log.info('profiling baseline day', { date, ...(relation !== undefined ? { relation: relation.table } : {}) });
+      const read = await readProfile(deps, basePlan, date, null);
+      await saveDayProfile(deps, profileFp, read);
+      fresh.set(date, new Map((read.slices ?? []).map((s) => [s.slice, s.profile])));
+      day = { ...read, sliceNames: (read.slices ?? []).map((s) => s.slice) };
+      delete day.slices;
     }
     days.push(day);
   }
-  const window = { type: config.baseline.window.type, from: wanted[0] ?? runDate, to: wanted[wanted.length - 1] ?? runDate };
-  const baseline = mergeBaseline(days, config, { fingerprint, window, createdAt: (deps.now?.() ?? new Date()).toISOString() });
+  const window =
+    relation !== undefined
+      ? { type: 'relation', from: dates[0] ?? relation.from ?? runDate, to: dates[dates.length - 1] ?? relation.to ?? runDate }
+      : { type: config.baseline.window.type, from: wanted[0] ?? runDate, to: wanted[wanted.length - 1] ?? runDate };
+  const createdAt = (deps.now?.() ?? new Date()).toISOString();
+  const baseline = mergeBaseline(days, config, { fingerprint, window, createdAt });
+
+  const sliceBaselines = new Map<string, BaselineProfile>();
+  if (hasSlices(config)) {
+    const names = [...new Set(days.flatMap((d) => d.sliceNames ?? []))].sort();
+    for (const name of names) {
+      throwIfAborted(deps.signal);
+      const withSlice = days.filter((d) => d.sliceNames?.includes(name)).map((d) => d.date);
+      const fromStore = await store.loadDayProfiles(sliceFingerprint(profileFp, name), withSlice.filter((d) => !fresh.get(d)?.has(name)));
+      const sliceDays = withSlice.map((d) => fresh.get(d)?.get(name) ?? fromStore.get(d)).filter((p): p is DayProfile => p !== undefined);
+      const b = mergeBaseline(sliceDays, sliceConfig(config), { fingerprint: sliceFingerprint(fingerprint, name), window, createdAt });
+      await store.saveBaseline(b);
+      sliceBaselines.set(name, b);
+    }
+    baseline.slices = names;
+  }
+  // The whole baseline last: a cached one has every slice baseline stored.
   await store.saveBaseline(baseline);
-  return baseline;
+  return { whole: baseline, slices: sliceBaselines };
 }
 
 export interface RunResult {
@@ -164,20 +308,29 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const tBaseline = performance.now();
     const stored = await ensureBaseline(deps, plan, runDate);
     // The pushdown engine counts the day into fine bins too (a stored baseline may predate them).
-    const baseline = deps.config.source.engine === 'pushdown' ? withFineBins(stored) : stored;
-    deps.log.debug('baseline ready', { runDate, seconds: (performance.now() - tBaseline) / 1000 });
+    const fine = (b: BaselineProfile): BaselineProfile => (deps.config.source.engine === 'pushdown' ? withFineBins(b) : b);
+    const baseline = fine(stored.whole);
+    const sliceBaselines = new Map([...stored.slices].map(([name, b]) => [name, fine(b)]));
+    deps.log.debug('baseline ready', { runDate, slices: sliceBaselines.size, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
-    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null);
+    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, sliceBaselines);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
     const tSave = performance.now();
-    await deps.store.saveDayProfile(profileFingerprint(deps.config), capDayProfile(current, daySampleCap(deps.config)));
+    await saveDayProfile(deps, profileFingerprint(deps.config), current);
     deps.log.debug('day profile stored', { runDate, seconds: (performance.now() - tSave) / 1000 });
 
-    const drafts = evaluateDay(deps.config, baseline, current);
+    let drafts: FindingDraft[] = evaluateSlices(
+      deps.config,
+      baseline,
+      current,
+      (current.slices ?? []).map((s) => ({ slice: s.slice, baseline: sliceBaselines.get(s.slice) ?? null, current: s.profile })),
+    );
+    // A training set's volume says nothing about a day's: row and list counts are not compared with it.
+    if (deps.config.baseline.source !== undefined) drafts = drafts.filter((d) => d.check !== 'row_count_ratio' && d.check !== 'list_count_ratio');
     const previous = await deps.store.previousFindings(runDate);
     const findings = applyAlertState(deps.config, runDate, drafts, previous?.findings ?? null);
-    const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings);
+    const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings, sliceBaselines);
     throwIfAborted(deps.signal);
     const tRun = performance.now();
     await deps.store.saveRun(report);
@@ -202,7 +355,7 @@ export async function recordMissingSnapshot(deps: RunDeps, runDate: string, reas
   const now = deps.now ?? (() => new Date());
   const started = now();
   const previous = await deps.store.previousFindings(runDate);
-  const findings = applyAlertState(deps.config, runDate, [snapshotMissingFinding(runDate, reason)], previous?.findings ?? null);
+  const findings = applyAlertState(deps.config, runDate, [{ slice: 'all', ...snapshotMissingFinding(runDate, reason) }], previous?.findings ?? null);
   const emptyBaseline: BaselineProfile = {
     fingerprint: '',
     window: { type: deps.config.baseline.window.type, from: runDate, to: runDate },
@@ -219,11 +372,30 @@ export async function recordMissingSnapshot(deps: RunDeps, runDate: string, reas
   return report;
 }
 
-function assembleReport(config: Config, runDate: string, started: Date, finished: Date, fingerprint: string, baseline: BaselineProfile, current: DayProfile, findings: Finding[]): Report {
+function assembleReport(
+  config: Config,
+  runDate: string,
+  started: Date,
+  finished: Date,
+  fingerprint: string,
+  baseline: BaselineProfile,
+  current: DayProfile,
+  findings: Finding[],
+  sliceBaselines: ReadonlyMap<string, BaselineProfile> = new Map(),
+): Report {
   const days = baseline.days.length;
   const sum = (k: 'rows' | 'lists'): number => baseline.days.reduce((s, d) => s + d[k], 0);
   const order = { critical: 0, warn: 1, ok: 2 } as const;
-  const sorted = [...findings].sort((a, b) => order[a.status] - order[b.status] || (a.feature ?? '').localeCompare(b.feature ?? '') || a.check.localeCompare(b.check));
+  // The whole day's findings first, then each slice's, in the order the slices were evaluated.
+  const sliceRank = new Map<string, number>([['all', 0], ...(current.slices ?? []).map((s, i): [string, number] => [s.slice, i + 1])]);
+  const sorted = [...findings].sort(
+    (a, b) =>
+      (sliceRank.get(a.slice ?? 'all') ?? 0) - (sliceRank.get(b.slice ?? 'all') ?? 0) ||
+      order[a.status] - order[b.status] ||
+      (a.feature ?? '').localeCompare(b.feature ?? '') ||
+      a.check.localeCompare(b.check),
+  );
+  const relation = config.baseline.source;
   return {
     schemaVersion: REPORT_SCHEMA_VERSION,
     runDate,
@@ -241,6 +413,7 @@ function assembleReport(config: Config, runDate: string, started: Date, finished
       meanListsPerDay: days > 0 ? sum('lists') / days : 0,
       sampleSize: baseline.sampleSize,
       fingerprint: baseline.fingerprint,
+      source: relation !== undefined ? { type: 'relation', table: relation.table, from: relation.from ?? null, to: relation.to ?? null } : { type: 'window', table: config.source.table },
     },
     current: {
       rows: current.totalRows,
@@ -250,5 +423,16 @@ function assembleReport(config: Config, runDate: string, started: Date, finished
       sampled: current.sampled,
     },
     findings: sorted,
+    ...(current.slices !== undefined
+      ? {
+          slices: current.slices.map((s) => ({
+            slice: s.slice,
+            kind: s.kind,
+            rows: s.profile.totalRows,
+            lists: s.profile.totalLists,
+            baselineDays: sliceBaselines.get(s.slice)?.days.length ?? 0,
+          })),
+        }
+      : {}),
   };
 }

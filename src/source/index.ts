@@ -14,3 +14,5 @@ export {
   type PushdownSpecs,
   type ValueCoding,
 } from './pushdown.ts';
+export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';
+export type { RowFilter } from './pushdown.ts';

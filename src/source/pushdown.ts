@@ -224,8 +224,14 @@ function countingSpec(specs: PushdownSpecs, name: string): BinSpec | undefined {
   return specs.fineBins?.[name] ?? specs.bins?.[name];
 }
 
+/**
+ * An extra row condition for both statements (a slice of the day, src/source/slice-sql.ts);
+ * `bind` adds a parameter and returns its placeholder.
+ */
+export type RowFilter = (bind: (value: unknown, cast: string) => string) => string;
+
 /** Builds the two statements for one day (exported so tests can EXPLAIN exactly what runs). */
-export function buildPushdownQueries(config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): PushdownQueries {
+export function buildPushdownQueries(config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter): PushdownQueries {
   if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
   const cols = config.source.columns;
   const listId = quoteIdent(cols.listId);
@@ -275,6 +281,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     wlNames.push(`w${i}`);
   });
   const sizeCap = lp.add(LIST_SIZE_BINS, 'int8');
+  const listFilter = filter === undefined ? '' : ` AND (${filter((v, c) => lp.add(v, c))})`;
   const wl = wlNames.length === 0 ? `'{}'::int8[]` : `ARRAY[${wlNames.map((w) => `sum(${w} & 1), sum((${w} >> 1) & 1), sum(${w} >> 2)`).join(', ')}]::int8[]`;
   const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows,
        count(*) FILTER (WHERE dup) AS dup, count(*) FILTER (WHERE gap) AS gap,
@@ -282,7 +289,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
        ${wl} AS wl
   FROM (SELECT ${inner.join(',\n               ')}
           FROM ${plan.relation}
-         WHERE ${plan.dateColumn} = ${dateParam}
+         WHERE ${plan.dateColumn} = ${dateParam}${listFilter}
          GROUP BY ${listId}) AS per_list
  GROUP BY 1, 2`;
 
@@ -317,7 +324,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) AS s, min(v.x) AS lo, max(v.x) AS hi
   FROM ${plan.relation}
        CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
- WHERE ${plan.dateColumn} = ${vDate}
+ WHERE ${plan.dateColumn} = ${vDate}${filter === undefined ? '' : ` AND (${filter((v, c) => vp.add(v, c))})`}
  GROUP BY 1, 2, 3`;
 
   return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
@@ -338,8 +345,8 @@ export async function preparePushdownSession(client: PoolClient): Promise<void> 
  * Runs both aggregate statements for one day. `client` must be inside a read-only
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
-export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayAggregates> {
-  const q = buildPushdownQueries(config, plan, date, specs);
+export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter): Promise<DayAggregates> {
+  const q = buildPushdownQueries(config, plan, date, specs, filter);
   await preparePushdownSession(client);
 
   const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
