@@ -52,10 +52,12 @@ function finding(p: {
   status?: Status;
   alerting?: boolean;
   since?: string;
+  slice?: string;
 }): Finding {
   const status = p.status ?? 'ok';
   const alerting = p.alerting ?? false;
   return {
+    slice: p.slice ?? 'all',
     feature: p.feature,
     check: p.check,
     rule: p.rule ?? null,
@@ -318,6 +320,7 @@ function storeSuite(target: Target): void {
       const alerts = await store.alertStates();
       expect(alerts).toHaveLength(4);
       expect(alerts.find((a) => a.check === 'ks')).toEqual({
+        slice: 'all',
         feature: 'days_listed',
         check: 'ks',
         rule: null,
