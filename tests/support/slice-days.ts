@@ -34,8 +34,8 @@ export function sliceScenario(listsPerDay: number, meanListSize: number): Scenar
  * - TOP_SHIFT_DAY: text_match x 1.3 at positions 1..10 (about 0.65 sd of its logarithm);
  * - SEGMENT_SHIFT_DAY: price x 2.5 in the market "isle" (about 6 % of the lists).
  */
-export async function loadSliceScenario(client: Queryable, table: string, size: { listsPerDay: number; meanListSize: number }, method?: 'copy' | 'unnest'): Promise<void> {
-  await loadScenario(client, { table, layout: 'wide', scenario: sliceScenario(size.listsPerDay, size.meanListSize), ...(method !== undefined ? { method } : {}) });
+export async function loadSliceScenario(client: Queryable, table: string, size: { listsPerDay: number; meanListSize: number }, method?: 'copy' | 'unnest', dates?: string[]): Promise<void> {
+  await loadScenario(client, { table, layout: 'wide', scenario: sliceScenario(size.listsPerDay, size.meanListSize), ...(method !== undefined ? { method } : {}), ...(dates !== undefined ? { dates } : {}) });
   // Not the hash the engines sample whole lists by (substr 1..8 of the same md5): markets must not follow it.
   const h = `(('x' || substr(md5(list_id), 9, 8))::bit(32)::bigint / 4294967296.0)`;
   const cases = MARKETS.map((m) => `WHEN ${h} < ${m.upTo} THEN '${m.name}'`).join(' ');
