@@ -248,7 +248,7 @@ const SlicesSchema = z
       .refine((ss) => new Set(ss.map((s) => s.column)).size === ss.length, 'names a column twice')
       .default([]),
     /** Values kept per feature and slice in a slice's baseline (KS and bin edges). */
-    sampleSize: positiveInt.min(1000).max(1_000_000).default(20_000),
+    sampleSize: positiveInt.min(1000).max(1_000_000).default(10_000),
   })
   .prefault({});
 

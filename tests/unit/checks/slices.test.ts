@@ -9,7 +9,7 @@ import { parseConfig } from '../../../src/config/index.ts';
 import { baseline, dataset, day, numeric } from './profiles.ts';
 
 const config = parseConfig({ source: { table: 'impressions' }, features: [{ name: 'x' }], slices: { topK: [10] } }, 'test');
-const range = (n: number, f: (k: number) => number): number[] => Array.from({ length: n }, (_, k) => f(k));
+const range = <T,>(n: number, f: (k: number) => T): T[] => Array.from({ length: n }, (_, k) => f(k));
 
 // Baseline: 0..999 in 50 lists of 20 rows. The day: 250, 255, ..., 1245 in 20 lists of 10 rows.
 // D = 0.25 (at 249 and at 999).
