@@ -163,9 +163,10 @@ export interface Report {
     fingerprint: string;
     /**
      * Where the baseline's rows came from (optional; absent means a window): the snapshot
-     * table over baseline.window, or another relation (e.g. the training set) over its dates.
+     * table (source.table) over baseline.window, or another relation (e.g. the training set)
+     * over its dates, as configured in baseline.source.
      */
-    source?: { type: 'window'; table: string } | { type: 'relation'; table: string; from: string | null; to: string | null };
+    source?: { type: 'window' } | { type: 'relation'; table: string; from: string | null; to: string | null };
   };
   current: {
     rows: number;

@@ -28,11 +28,10 @@ export function renderTable(report: Report, options: { all?: boolean } = {}): st
   const c = report.current;
   lines.push(`Plumbline report for ${report.runDate}: ${report.status.toUpperCase()}`);
   lines.push(`  current:  ${c.rows.toLocaleString('en-US')} rows in ${c.lists.toLocaleString('en-US')} lists${c.sampled ? ` (evaluated ${c.evaluatedRows.toLocaleString('en-US')} rows of whole sampled lists)` : ''}`);
-  const from = b.source?.type === 'relation' ? `relation ${b.source.table}` : b.source !== undefined ? `${b.source.table}, ` : '';
   lines.push(
     b.source?.type === 'relation'
-      ? `  baseline: ${from} ${b.window.from}..${b.window.to}, ${b.days.length} days with data, ${Math.round(b.meanRowsPerDay).toLocaleString('en-US')} rows/day`
-      : `  baseline: ${from}${b.window.type} ${b.window.from}..${b.window.to}, ${b.days.length} days with data, ${Math.round(b.meanRowsPerDay).toLocaleString('en-US')} rows/day`,
+      ? `  baseline: relation ${b.source.table} ${b.window.from}..${b.window.to}, ${b.days.length} days with data, ${Math.round(b.meanRowsPerDay).toLocaleString('en-US')} rows/day`
+      : `  baseline: ${b.window.type} ${b.window.from}..${b.window.to}, ${b.days.length} days with data, ${Math.round(b.meanRowsPerDay).toLocaleString('en-US')} rows/day`,
   );
   if (report.slices !== undefined && report.slices.length > 0) {
     lines.push(`  slices:   ${report.slices.map((s) => `${s.slice} (${s.rows.toLocaleString('en-US')} rows, ${s.baselineDays} baseline days)`).join(', ')}`);

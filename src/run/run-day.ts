@@ -413,7 +413,7 @@ function assembleReport(
       meanListsPerDay: days > 0 ? sum('lists') / days : 0,
       sampleSize: baseline.sampleSize,
       fingerprint: baseline.fingerprint,
-      source: relation !== undefined ? { type: 'relation', table: relation.table, from: relation.from ?? null, to: relation.to ?? null } : { type: 'window', table: config.source.table },
+      source: relation !== undefined ? { type: 'relation', table: relation.table, from: relation.from ?? null, to: relation.to ?? null } : { type: 'window' },
     },
     current: {
       rows: current.totalRows,

@@ -184,7 +184,7 @@ export function renderOverview(input: OverviewInput): StatusPageResult {
   const alerting = report.findings.filter(isAlerting).length;
   const b = report.baseline;
   const window =
-    b?.window === undefined ? 'n/a' : b.source?.type === 'relation' ? `relation ${b.source.table}, ${b.window.from} → ${b.window.to}` : `${b.source !== undefined ? `${b.source.table}, ` : ''}${b.window.type} ${b.window.from} → ${b.window.to}`;
+    b?.window === undefined ? 'n/a' : b.source?.type === 'relation' ? `relation ${b.source.table}, ${b.window.from} → ${b.window.to}` : `${b.window.type} ${b.window.from} → ${b.window.to}`;
   const head = html`<section class="card" aria-labelledby="run-h"><h1 id="run-h">Run of ${report.runDate} ${badge(status)}</h1><p class="muted">Finished ${timestamp(report.finishedAt)} · baseline ${window} (${b?.days?.length ?? 0} days with data) · <a href="${jsonHref(report.runDate)}">JSON report</a></p><ul class="facts"><li><b>${rows.length}</b><span>features checked</span></li><li><b>${critical}</b><span>${STATUS_STYLE.critical.symbol} critical features</span></li><li><b>${warn}</b><span>${STATUS_STYLE.warn.symbol} warn features</span></li><li><b>${alerting}</b><span>findings alerting</span></li><li><b>${report.findings.length}</b><span>checks run</span></li></ul></section>`;
   const body = html`${head}${dateNav(report, input.dates, problemsOnly)}${featureGrid(report, rows, problemsOnly, slice)}${datasetSection(report)}`;
   return shell({
