@@ -21,6 +21,7 @@ import {
   mergeBaseline,
   planSlices,
   planSlicesOfColumns,
+  profilerPool,
   sliceRows,
   subsetColumns,
   threadedProfiler,
@@ -92,6 +93,9 @@ export function profileFingerprint(config: Config): string {
   });
 }
 
+/** Rows from which a slice is profiled on the run's worker threads too (they are started once per day). */
+const SLICE_PARALLEL_MIN_ROWS = 50_000;
+
 /** The fingerprint under which a slice's day profiles (or baseline) are stored. */
 export function sliceFingerprint(fingerprint: string, slice: string): string {
   return `${fingerprint}/${slice}`;
@@ -150,9 +154,18 @@ async function readProfile(
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
   // Slices first: profiling the whole day consumes the columns.
-  const slices = hasSlices(deps.config) ? await buildSliceProfiles(cols, deps.config, planSlicesOfColumns(deps.config, cols), (name) => sliceSpecs.get(name)?.bins ?? null, threadedProfiler()) : null;
-  const t2 = performance.now();
-  const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
+  // One pool of workers for the slices and the day: starting a worker costs more than a small slice.
+  const pool = profilerPool();
+  let slices: SliceProfile[] | null = null;
+  let profile: DayProfile;
+  let t2: number;
+  try {
+    if (hasSlices(deps.config)) slices = await buildSliceProfiles(cols, deps.config, planSlicesOfColumns(deps.config, cols), (name) => sliceSpecs.get(name)?.bins ?? null, pool.profiler(SLICE_PARALLEL_MIN_ROWS));
+    t2 = performance.now();
+    profile = await buildDayProfile(cols, deps.config, bins, pool.profiler());
+  } finally {
+    await pool.close();
+  }
   deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, sliceSeconds: (t2 - t1) / 1000, profileSeconds: (performance.now() - t2) / 1000 });
   return slices === null ? profile : { ...profile, slices };
 }
