@@ -11,11 +11,15 @@
  *   statistic (PSI over the baseline's bins, KS D), the distribution the adaptive
  *   thresholds are learned from (checks/adaptive.ts).
  *
- * Leave-one-out without re-pooling: the pooled sample is the union of the days' thinned
- * pieces, so with N pooled values of which n_d are day d's, the rest's ECDF is
- * (N F_all - n_d F_d) / (N - n_d), and D(day, rest) = N / (N - n_d) * D(day, all) exactly.
- * PSI's rest counts are the window's counts minus the day's, over the baseline's bins (the
- * bins themselves include the day: a small approximation, stated here).
+ * Leave-one-out without re-pooling. The pooled sample is the union of the days' thinned
+ * pieces, so with N pooled values of which n_d are day d's piece, the rest's cumulative
+ * count at any x is count_all(x) - count_piece(x). KS D of the day (its whole stored
+ * sample, less sampling noise than its piece) against the rest is taken over LOO_GRID_BINS
+ * quantile bins of the pooled sample, as the pushdown engine's binned D: a lower bound of
+ * the exact D, short of it by at most the largest share of one bin in either sample. That
+ * keeps the cost at O(day sample + piece + bins) per day instead of O(N). PSI's rest counts
+ * are the window's counts minus the day's, over the baseline's bins (the bins themselves
+ * include the day: a small approximation, stated here).
  *
  * Assumptions: baseline days are exchangeable apart from the variation that should be
  * learned (seasonality, promotions); the stored day samples are thinned to the day cap, so
@@ -23,13 +27,49 @@
  * with the pool does, which errs toward higher (quieter) thresholds.
  */
 import type { Config } from '../config/index.ts';
-import { categoryPsi, distinctCountSorted, ks2Sorted, psi, type BinSpec } from '../stats/index.ts';
+import { binCountsSorted, binEdgesFromSorted, categoryPsi, distinctCountSorted, psi, type BinSpec } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import { thinSorted } from './baseline.ts';
 import type { CategoricalProfile, DayProfile, FeatureVariation, NumericProfile } from './types.ts';
 
 /** Sample sizes at which per-day distinct counts are kept (each day up to its sample's size). */
 export const DISTINCT_LADDER = [10, 20, 50, 100, 200, 500, 1000, 2000, 5000, 10_000, 20_000, 50_000, 100_000, 200_000, 500_000, 1_000_000] as const;
+
+/** Quantile bins of the pooled sample over which leave-one-out KS D is taken. */
+export const LOO_GRID_BINS = 1000;
+
+interface LooGrid {
+  spec: BinSpec;
+  /** Cumulative counts of the pooled sample at the end of each bin. */
+  cumAll: Float64Array;
+  n: number;
+}
+
+function cumulative(counts: Float64Array): Float64Array {
+  const out = new Float64Array(counts.length);
+  let c = 0;
+  for (let i = 0; i < counts.length; i++) out[i] = c += counts[i]!;
+  return out;
+}
+
+function looGrid(merged: Float64Array): LooGrid {
+  const spec = binEdgesFromSorted(merged, LOO_GRID_BINS);
+  return { spec, cumAll: cumulative(binCountsSorted(spec, merged)), n: merged.length };
+}
+
+/** Binned KS D of a day's sample against the pooled sample without the day's piece. */
+export function binnedLooD(grid: LooGrid, daySample: Float64Array, piece: Float64Array): number {
+  const rest = grid.n - piece.length;
+  if (rest <= 0 || daySample.length === 0) return 0;
+  const cumPiece = cumulative(binCountsSorted(grid.spec, piece));
+  const cumDay = cumulative(binCountsSorted(grid.spec, daySample));
+  let d = 0;
+  for (let i = 0; i < cumDay.length; i++) {
+    const gap = Math.abs((grid.cumAll[i]! - cumPiece[i]!) / rest - cumDay[i]! / daySample.length);
+    if (gap > d) d = gap;
+  }
+  return d;
+}
 
 /** Distinct counts of a sorted sample thinned to each ladder size it reaches. */
 export function distinctLadder(sorted: Float64Array): number[] {
@@ -55,6 +95,7 @@ export function numericVariation(days: readonly { date: string; profile: Numeric
   const psiLoo: number[] = [];
   const ksLoo: number[] = [];
   const looDays: string[] = [];
+  const grid = withKs && merged.length > 0 ? looGrid(merged) : null;
   days.forEach((d, i) => {
     const rest = total.map((x, b) => Math.max(0, x - dayCounts[i]![b]!));
     const restSum = rest.reduce((a, b) => a + b, 0);
@@ -64,7 +105,7 @@ export function numericVariation(days: readonly { date: string; profile: Numeric
     if (restSum <= 0 || daySum <= 0 || nd === 0 || nd >= n) return;
     looDays.push(d.date);
     psiLoo.push(psi(rest, dayCounts[i]!).psi);
-    if (withKs) ksLoo.push(Math.min(1, (n / (n - nd)) * ks2Sorted(d.piece, merged).d));
+    if (grid !== null && d.profile.sortedSample.length > 0) ksLoo.push(binnedLooD(grid, d.profile.sortedSample, d.piece));
   });
   return {
     looDays,

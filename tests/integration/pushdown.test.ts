@@ -93,7 +93,7 @@ function expectAgreement(stream: Report, pushdown: Report): number {
       expect(sf.value, k).toBeLessThanOrEqual(pf.value + bound + 1e-12);
       expect(pf.evidence['m'], k).toBe(sf.evidence['m']);
       expect(pf.summary, k).toContain('fine bins');
-    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop') {
+    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop' || sf.check === 'extreme_value_ratio') {
       expect(pf.value, k).toBe(sf.value);
       expect(pf.status, k).toBe(sf.status);
       expect(pf.evidence, k).toEqual(sf.evidence);
@@ -172,5 +172,21 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
       Number.isNaN(x) ? { kind: 'nan' } : x === Infinity ? { kind: 'posInf' } : x === -Infinity ? { kind: 'negInf' } : { kind: 'finite', bin: assignBin(fine, x), outOfRange: x < range.min || x > range.max },
     );
     expect(res.rows.map((r) => coding.decode(r.b))).toEqual(expected);
+
+    // Extreme-value bounds cut the same way: strictly below `lower`, strictly above `upper`.
+    const extreme = { lower: -2.5, upper: 7 };
+    const withBounds = valueCoding(fine, range, extreme);
+    const probes2 = [...all, -2.5, -2.5000000000000004, 7, 7.000000000000001, 1e308, -1e308];
+    const res2 = await admin.query<{ b: number }>(`SELECT width_bucket(v, $2::float8[]) AS b FROM unnest($1::float8[]) WITH ORDINALITY AS t(v, i) ORDER BY i`, [probes2, withBounds.thresholds]);
+    const expected2 = probes2.map((x) =>
+      Number.isNaN(x)
+        ? { kind: 'nan' }
+        : x === Infinity
+          ? { kind: 'posInf' }
+          : x === -Infinity
+            ? { kind: 'negInf' }
+            : { kind: 'finite', bin: assignBin(fine, x), outOfRange: x < range.min || x > range.max, beyond: x < extreme.lower ? -1 : x > extreme.upper ? 1 : 0 },
+    );
+    expect(res2.rows.map((r) => withBounds.decode(r.b))).toEqual(expected2);
   });
 });
