@@ -12,8 +12,8 @@
  * - the baseline window is clean and its days are exchangeable with the day judged, apart
  *   from the variation that is meant to be learned (weekly seasonality, promotions): a
  *   window holding a past break learns that break as normal;
- * - with W days the quantile is only as fine as 1/W (28 days: the 95 % quantile lies
- *   between the two largest values), which the margin covers;
+ * - with W days the quantile is only as fine as 1/W (28 days: a 95 % quantile lies between
+ *   the two largest values), hence the default quantile 1, the largest value, with a margin;
  * - a baseline day is judged on its thinned stored sample, the current day on all its rows,
  *   so the learned values carry a little more sampling noise than the day does: the
  *   thresholds err toward quiet;

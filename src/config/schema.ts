@@ -116,7 +116,8 @@ export const DEFAULT_THRESHOLDS = {
 const AdaptiveSchema = z
   .strictObject({
     enabled: z.boolean().default(false),
-    quantile: z.number().gt(0).max(1).default(0.95),
+    /** 1: the largest leave-one-out value (a window of 28 days estimates a 95 % quantile poorly). */
+    quantile: z.number().gt(0).max(1).default(1),
     margin: z.number().min(1).default(1.5),
     criticalMultiple: z.number().min(1).default(2),
     /** Fewest leave-one-out days needed to learn a threshold; with fewer, the fixed thresholds apply. */

@@ -12,7 +12,7 @@
  * - rotating_*: an item attribute whose items rotate daily: each day a fresh set of items,
  *   every row one of that day's items (few items: many repeats; many items: few repeats).
  */
-import { parseConfig, type Config } from '../../src/config/index.ts';
+import { parseConfig, type Config, type ConfigInput } from '../../src/config/index.ts';
 import { evaluateDay } from '../../src/checks/index.ts';
 import { buildDayProfile, capDayProfile, mergeBaseline, type BaselineProfile, type DayProfile } from '../../src/profile/index.ts';
 import type { Finding, Status } from '../../src/report/index.ts';
@@ -52,14 +52,16 @@ export interface SimOptions {
 /** A fault applied to one feature of one day. */
 export type SimFault = { kind: 'shift'; feature: string; sd: number } | { kind: 'stuck_items'; feature: string; share: number };
 
-export function simConfig(o: SimOptions, extra: { adaptive?: boolean; mainLogic?: boolean } = {}): Config {
+export type AdaptiveInput = NonNullable<NonNullable<ConfigInput['thresholds']>['adaptive']>;
+
+export function simConfig(o: SimOptions, extra: { adaptive?: boolean; adaptiveOptions?: AdaptiveInput; mainLogic?: boolean } = {}): Config {
   return parseConfig(
     {
       source: { table: 'sim.impressions' },
       features: SIM_FEATURES.map((f) => ({ name: f.name })),
       baseline: { window: { type: 'trailing', days: o.window }, sampleSize: o.sampleSize },
       thresholds: {
-        adaptive: { enabled: extra.adaptive ?? false },
+        adaptive: { ...extra.adaptiveOptions, enabled: extra.adaptive ?? false },
         // Main's default before per-day distinct counts.
         ...(extra.mainLogic === true ? { distinct_ratio_drop: { warn: 0.5, critical: 0.9 } } : {}),
       },
@@ -189,6 +191,8 @@ export interface Figures {
   stuck: { feature: string; status: Status; drop: number }[];
   /** Which checks warned on clean days, per mode (count of feature-days). */
   byCheck: Record<'main' | 'fixed' | 'adaptive', Record<string, number>>;
+  /** The adaptive mode's warnings on clean days, one line each. */
+  adaptiveWarnings: string[];
 }
 
 /**
@@ -197,9 +201,9 @@ export interface Figures {
  * with this version's checks, adaptive thresholds. Shifts of `shifts` sd go into each stable
  * feature on `shiftDays` of those days (one feature at a time, the day otherwise clean).
  */
-export async function measure(o: SimOptions, cleanDays: number, shifts: readonly number[], shiftDays: number): Promise<Figures> {
+export async function measure(o: SimOptions, cleanDays: number, shifts: readonly number[], shiftDays: number, adaptiveOptions: AdaptiveInput = {}): Promise<Figures> {
   const fixed = simConfig(o);
-  const adaptive = simConfig(o, { adaptive: true });
+  const adaptive = simConfig(o, { adaptive: true, adaptiveOptions });
   const main = simConfig(o, { mainLogic: true });
   const stored = await simStoredDays(o, o.window + cleanDays, fixed);
   const warned = { main: 0, fixed: 0, adaptive: 0 };
@@ -209,6 +213,7 @@ export async function measure(o: SimOptions, cleanDays: number, shifts: readonly
   const stable = SIM_FEATURES.filter((f) => f.kind === 'stable').map((f) => f.name);
   const rotating = SIM_FEATURES.filter((f) => f.kind === 'rotating').map((f) => f.name);
   let stuck: Figures['stuck'] = [];
+  const adaptiveWarnings: string[] = [];
   for (let d = o.window; d < o.window + cleanDays; d++) {
     const baseline = simBaseline(stored, d, fixed, o.window);
     // Main's logic: no per-day variation in the baseline (pooled distinct), main's thresholds, no extreme check.
@@ -222,7 +227,11 @@ export async function measure(o: SimOptions, cleanDays: number, shifts: readonly
       const findings = (await simEvaluate(config, base, d, o)).filter((f) => !(mode === 'main' && f.check === 'extreme_value_ratio'));
       for (const f of SIM_FEATURES) {
         if (worstFor(findings, f.name) !== 'ok') warned[mode]++;
-        for (const x of findings) if (x.feature === f.name && x.status !== 'ok') byCheck[mode][x.check] = (byCheck[mode][x.check] ?? 0) + 1;
+        for (const x of findings) {
+          if (x.feature !== f.name || x.status === 'ok') continue;
+          byCheck[mode][x.check] = (byCheck[mode][x.check] ?? 0) + 1;
+          if (mode === 'adaptive') adaptiveWarnings.push(`${addDays(SIM_START, d)} ${x.feature} ${x.check}: ${x.summary}`);
+        }
       }
       if (mode !== 'adaptive') for (const r of rotating) if (worstFor(findings, r, ['distinct_ratio_drop']) !== 'ok') distinctWarned[mode]++;
     }
@@ -256,5 +265,6 @@ export async function measure(o: SimOptions, cleanDays: number, shifts: readonly
     smallestCaught: { fixed: smallest('fixed'), adaptive: smallest('adaptive') },
     stuck,
     byCheck,
+    adaptiveWarnings,
   };
 }

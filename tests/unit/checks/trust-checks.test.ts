@@ -90,7 +90,7 @@ describe('extreme_value_ratio', () => {
 });
 
 describe('adaptive drift thresholds', () => {
-  const a = config([{ name: 'x' }], { thresholds: { adaptive: { enabled: true } } }).thresholds.adaptive;
+  const a = config([{ name: 'x' }], { thresholds: { adaptive: { enabled: true, quantile: 0.95 } } }).thresholds.adaptive;
 
   it('warn at margin x the quantile of the leave-one-out values, never below the floor; critical at criticalMultiple x warn', () => {
     // 20 values 0.01 .. 0.20: numpy 2.4.6 np.quantile(np.arange(1, 21) / 100, 0.95) = 0.1905.

@@ -72,7 +72,7 @@ describe('defaults', () => {
       ksAlpha: 0.01,
       psiNoiseQuantile: 0.999,
       extremeIqrMultiple: 3,
-      adaptive: { enabled: false, quantile: 0.95, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
+      adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
     });
     expect(c.thresholds.psi).toEqual({ warn: 0.1, critical: 0.25 });
   });

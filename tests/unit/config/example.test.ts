@@ -98,7 +98,7 @@ describe('deploy/plumbline.example.yaml', () => {
       ksAlpha: 0.01,
       psiNoiseQuantile: 0.999,
       extremeIqrMultiple: 3,
-      adaptive: { enabled: false, quantile: 0.95, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
+      adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
     });
     expect(ex.alerting).toEqual(def.alerting);
     expect(ex.schedule).toEqual(def.schedule);
