@@ -66,8 +66,8 @@ export function capDayProfile(day: DayProfile, cap: number): DayProfile {
       features[name] = f;
       continue;
     }
-    // Bin counts belong to one baseline's bins: a later baseline has bins of its own.
-    const { fineBinCounts: _fine, ...rest } = f;
+    // Bin counts belong to one baseline's bins: a later baseline has bins of its own (so do extreme counts).
+    const { fineBinCounts: _fine, extremeCounts: _extreme, ...rest } = f;
     features[name] = { ...rest, binCounts: [], sortedSample: thinSorted(f.sortedSample, cap) };
   }
   return { ...day, features };

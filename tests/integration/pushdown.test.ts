@@ -15,7 +15,7 @@ import { loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
 import { fineBinsFromSorted } from '../../src/profile/index.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
-import { refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
+import { planSource, readDayAggregates, refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
 import { assignBin, binEdgesFromSorted, type BinSpec } from '../../src/stats/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { BASELINE_DAYS, FAULTS, SCENARIO } from '../support/fault-days.ts';
@@ -146,6 +146,37 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
     const typeErrors = jsonb.pushdown.get(addDays(JSONB_START, 8))!.findings.find((f) => f.feature === 'review_count' && f.check === 'type_error_ratio');
     expect(typeErrors?.status).toBe('critical');
     expect(typeErrors?.evidence['typeErrors']).toBeGreaterThan(0);
+  });
+
+  it('counts values beyond the extreme bounds in SQL, with the exact extremes, and sums 1e308 values without overflow', async () => {
+    const overflow = FAULTS.find((f) => f.plan.kind === 'overflow')!.plan.date;
+    const config = scenarioConfig(table, { storeSchema: 'unused' });
+    const pool = new pg.Pool({ connectionString: url, max: 1 });
+    const client = await pool.connect();
+    try {
+      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      const plan = await planSource(client, config);
+      const bounds = { review_count: { lower: -1, upper: 1000 } };
+      const agg = await readDayAggregates(client, config, plan, overflow, { bins: null, fineBins: null, extremeBounds: bounds });
+      await client.query('COMMIT');
+      const truth = await admin.query<{ above: string; below: string; lo: number; hi: number }>(
+        `SELECT count(*) FILTER (WHERE review_count > 1000)::text AS above, count(*) FILTER (WHERE review_count < -1)::text AS below, min(review_count) AS lo, max(review_count) AS hi FROM ${table} WHERE snapshot_date = $1::date AND review_count < 'Infinity'::float8`,
+        [overflow],
+      );
+      const t = truth.rows[0]!;
+      expect(Number(t.above)).toBeGreaterThan(100);
+      const a = agg.numeric['review_count']!;
+      expect(a.extreme).toEqual({ lower: -1, upper: 1000, below: Number(t.below), above: Number(t.above) });
+      expect([a.min, a.max]).toEqual([t.lo, t.hi]);
+      expect(a.max).toBe(1e308);
+      // The float8 sum of the day would overflow (SQLSTATE 22003); the numeric part keeps the mean defined, here +Infinity as in JavaScript.
+      expect(a.sum).toBe(Number.POSITIVE_INFINITY);
+      // A feature without bounds counts nothing beyond.
+      expect(agg.numeric['price']!.extreme).toBeUndefined();
+    } finally {
+      client.release();
+      await pool.end();
+    }
   });
 
   it('places values in bins on the server exactly as assignBin does (right-closed intervals, point masses, -0, neighbours of edges)', async () => {
