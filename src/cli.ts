@@ -4,6 +4,8 @@
  * errors to exit codes (0 ok, 1 --fail-on matched or a bug, 2 config or usage, 3 source or
  * store unavailable). Nothing else in Plumbline reads argv or exits the process.
  */
+import { realpathSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
 import { envSetting, loadConfigFile, maskUrl } from './config/index.ts';
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
@@ -197,27 +199,44 @@ interface DemoModule {
   runDemo(options: { log: Logger; port: number | undefined; openRuntime: typeof openRuntime }): Promise<number>;
 }
 
-function report(err: unknown): number {
+function report(err: unknown, debug: boolean): number {
   if (err instanceof ConfigError) {
     process.stderr.write(`plumbline: ${err.message}\n`);
     for (const p of err.problems) process.stderr.write(`  - ${p}\n`);
   } else if (err instanceof StoreError || err instanceof SourceError) {
     process.stderr.write(`plumbline: ${err.message}\n`);
   } else {
-    process.stderr.write(`plumbline: unexpected error: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}\n`);
+    // A stack trace is for whoever debugs Plumbline, not for its users: shown only at
+    // PLUMBLINE_LOG_LEVEL=debug.
+    const detail = err instanceof Error ? (debug ? (err.stack ?? err.message) : `${err.name}: ${err.message}`) : String(err);
+    process.stderr.write(`plumbline: unexpected error: ${detail}\n`);
+    if (!debug) process.stderr.write('plumbline: run again with PLUMBLINE_LOG_LEVEL=debug for the stack trace\n');
   }
   return exitCodeFor(err);
 }
 
-// Run when executed directly (node dist/cli.js, tsx src/cli.ts), not when imported by tests.
-const invokedDirectly = process.argv[1] !== undefined && /cli\.(ts|js)$/.test(process.argv[1]);
-if (invokedDirectly) {
+/**
+ * Whether this module is the program (node dist/cli.js, tsx src/cli.ts, or the `plumbline`
+ * command, which npm installs as a symbolic link to dist/cli.js under any name), rather
+ * than imported by a test. Comparing real paths follows the link.
+ */
+function isMainModule(): boolean {
+  const script = process.argv[1];
+  if (script === undefined) return false;
+  try {
+    return realpathSync(script) === realpathSync(fileURLToPath(import.meta.url));
+  } catch {
+    return false;
+  }
+}
+
+if (isMainModule()) {
   main(process.argv.slice(2)).then(
     (code) => {
       process.exitCode = code;
     },
     (err: unknown) => {
-      process.exitCode = report(err);
+      process.exitCode = report(err, envSetting('PLUMBLINE_LOG_LEVEL') === 'debug');
     },
   );
 }
