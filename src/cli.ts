@@ -231,12 +231,21 @@ function isMainModule(): boolean {
 }
 
 if (isMainModule()) {
+  const debug = envSetting('PLUMBLINE_LOG_LEVEL') === 'debug';
+  // An error nothing caught (in a callback or a forgotten promise) ends the process as Node
+  // would, with exit code 1, but with one line instead of a stack trace (unless debug).
+  const fatal = (err: unknown): void => {
+    report(err, debug);
+    process.exit(EXIT.bug);
+  };
+  process.on('uncaughtException', fatal);
+  process.on('unhandledRejection', fatal);
   main(process.argv.slice(2)).then(
     (code) => {
       process.exitCode = code;
     },
     (err: unknown) => {
-      process.exitCode = report(err, envSetting('PLUMBLINE_LOG_LEVEL') === 'debug');
+      process.exitCode = report(err, debug);
     },
   );
 }
