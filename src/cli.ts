@@ -7,11 +7,11 @@
 import { realpathSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
-import { envSetting, loadConfigFile, maskUrl } from './config/index.ts';
+import { connectionSummary, envSetting, loadConfigFile, maskUrl } from './config/index.ts';
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
 import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
 import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
-import { configFingerprint, dateRange, isIsoDate, runDay } from './run/index.ts';
+import { checkSource, configFingerprint, dateRange, isIsoDate, memoryEstimate, runDay } from './run/index.ts';
 import { migrate } from './store/index.ts';
 import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
@@ -19,7 +19,8 @@ import { VERSION } from './version.ts';
 const USAGE = `plumbline ${VERSION}: watches ranking-feature snapshots in PostgreSQL
 
 Usage:
-  plumbline check-config FILE                 validate a config file and print it resolved
+  plumbline check-config FILE [--connect]     validate a config file and print it resolved; --connect also
+                                              checks the source table, columns and keys in the database
   plumbline migrate  --config FILE            create or upgrade Plumbline's own tables
   plumbline run      --config FILE --date YYYY-MM-DD [--format table|json] [--fail-on warn|critical] [--all]
   plumbline backfill --config FILE --from YYYY-MM-DD --to YYYY-MM-DD [--force]
@@ -44,6 +45,7 @@ const OPTIONS = {
   help: { type: 'boolean', short: 'h' },
   version: { type: 'boolean' },
   port: { type: 'string' },
+  connect: { type: 'boolean' },
 } as const;
 
 type Values = ReturnType<typeof parseArgs<{ options: typeof OPTIONS; allowPositionals: true }>>['values'];
@@ -107,12 +109,26 @@ export async function main(argv: string[]): Promise<number> {
     case 'check-config': {
       const path = configPath(values, rest);
       const config = loadConfigFile(path);
+      if (values.connect === true) {
+        // The same catalogue checks a run starts with, every problem listed (exit 2 when any).
+        const rt = openRuntime(config, log);
+        try {
+          const problems = await checkSource(rt.source, config);
+          if (problems.length > 0) throw new ConfigError(`the source does not match ${path} (${problems.length} problem${problems.length === 1 ? '' : 's'})`, problems);
+        } finally {
+          await rt.close();
+        }
+      }
       process.stdout.write(`# ${path} is valid. Resolved, with defaults (fingerprint ${configFingerprint(config)}):\n`);
       // Secrets are masked wherever config is printed (an Alertmanager URL may carry credentials).
       const shown = config.alerting.alertmanagerUrl === undefined ? config : { ...config, alerting: { ...config.alerting, alertmanagerUrl: maskUrl(config.alerting.alertmanagerUrl) } };
       process.stdout.write(`${JSON.stringify(shown, null, 2)}\n`);
-      const env = ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => `# ${k}: ${process.env[k] ? maskUrl(process.env[k]!) : process.env[`${k}_FILE`] ? `from file ${process.env[`${k}_FILE`]}` : '(not set)'}`);
-      process.stdout.write(`${env.join('\n')}\n`);
+      process.stdout.write(`${connectionSummary().map((l) => `# ${l}`).join('\n')}\n`);
+      const mem = memoryEstimate(config);
+      process.stdout.write(
+        `# memory at the cap: about ${Math.ceil(mem.bytes / 2 ** 20)} MiB (${config.source.engine} engine, ${mem.rows} rows x ${mem.features} features; README "Sizing")\n`,
+      );
+      if (values.connect === true) process.stdout.write('# source: table, columns, types and jsonb keys match the config\n');
       return EXIT.ok;
     }
     case 'migrate':

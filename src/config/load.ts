@@ -151,3 +151,15 @@ export function envSetting(name: string, env: Env = process.env): string | undef
   const v = env[name];
   return v === undefined || v === '' ? undefined : v;
 }
+
+/**
+ * One line per connection setting for printing: the URL masked, or the file it is read
+ * from (not read out), or "(not set)".
+ */
+export function connectionSummary(env: Env = process.env): string[] {
+  return ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => {
+    const direct = envSetting(k, env);
+    const file = envSetting(`${k}_FILE`, env);
+    return `${k}: ${direct !== undefined ? maskUrl(direct) : file !== undefined ? `from file ${file}` : '(not set)'}`;
+  });
+}

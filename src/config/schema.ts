@@ -258,7 +258,7 @@ export const ConfigSchema = z
       /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
       engine: z.enum(['stream', 'pushdown']).default('stream'),
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
-      maxRowsPerDay: positiveInt.max(LIMITS.maxRowsPerDay, `must be at most ${LIMITS.maxRowsPerDay} rows (the stream engine holds the day in memory)`).default(5_000_000),
+      maxRowsPerDay: positiveInt.max(LIMITS.maxRowsPerDay, `must be at most ${LIMITS.maxRowsPerDay} rows (the stream engine holds the day in memory)`).default(2_000_000),
       /** Server-side statement_timeout of source reads; PostgreSQL takes at most 2147483647 ms. */
       statementTimeoutSeconds: positiveInt
         .max(LIMITS.statementTimeoutSeconds, `must be at most ${LIMITS.statementTimeoutSeconds} seconds (PostgreSQL's statement_timeout limit, 2147483647 ms)`)
