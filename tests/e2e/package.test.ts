@@ -14,6 +14,8 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { dirname, join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { loadConfigFile } from '../../src/config/index.ts';
+import { memoryEstimate } from '../../src/run/index.ts';
 import { createBigDay, type BigDay } from '../support/big-day.ts';
 import { testDatabaseUrl } from '../support/pg.ts';
 import { REPO_ROOT } from '../support/service.ts';
@@ -92,6 +94,8 @@ describe('the packed and installed package', () => {
     expect(r.stderr).toBe('');
     expect(r.status).toBe(0);
     expect(r.stdout).toContain('is valid');
+    const mem = memoryEstimate(loadConfigFile(join(REPO_ROOT, 'deploy/plumbline.example.yaml')));
+    expect(r.stdout).toContain(`# memory at the cap: about ${Math.ceil(mem.bytes / 2 ** 20)} MiB (stream engine, ${mem.rows} rows x ${mem.features} features; README "Sizing")\n`);
   });
 
   describe.skipIf(url === undefined)('against the test server (needs PLUMBLINE_TEST_DATABASE_URL)', () => {
