@@ -5,8 +5,7 @@
  */
 import { pipeline } from 'node:stream/promises';
 import { Writable } from 'node:stream';
-import { to as copyTo } from 'pg-copy-streams';
-import type { PoolClient } from '../db/index.ts';
+import { copyOut, type PoolClient } from '../db/index.ts';
 import { NULL_POSITION, type DayColumns } from '../profile/index.ts';
 import { DataError } from '../errors.ts';
 import { MISSING_NULL, MISSING_TYPE_ERROR } from '../stats/index.ts';
@@ -241,7 +240,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
   const sink = new DaySink(plan, out);
   const parser = new CopyBinaryParser(plan.selectList.length, sink);
-  const stream = client.query(copyTo(sql));
+  const stream = copyOut(client, sql);
   await pipeline(
     stream,
     new Writable({
