@@ -12,7 +12,7 @@
  *
  * `rows` is `source.maxRowsPerDay` for the stream engine and the day's value sample for
  * pushdown (whose aggregates are a few kilobytes). Fitted to the peaks of tests/bench/run.bench.ts
- * (250k-1M rows x 50 features: 404-902 MiB measured against 434-1029 MiB estimated) and of
+ * (250k-1M rows x 50 features: 408-902 MiB measured against 435-1030 MiB estimated) and of
  * pushdown.bench.ts (183 MiB measured against 247 MiB), rounded up.
  */
 import type { Config } from '../config/index.ts';
