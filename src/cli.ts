@@ -48,6 +48,8 @@ const OPTIONS = {
   connect: { type: 'boolean' },
 } as const;
 
+const LOG_LEVELS: readonly LogLevel[] = ['debug', 'info', 'warn', 'error'];
+
 type Values = ReturnType<typeof parseArgs<{ options: typeof OPTIONS; allowPositionals: true }>>['values'];
 
 function usageError(message: string): ConfigError {
@@ -103,7 +105,9 @@ export async function main(argv: string[]): Promise<number> {
     process.stdout.write(USAGE);
     return command === undefined && values.help !== true ? EXIT.usage : EXIT.ok;
   }
-  const log = createLogger((envSetting('PLUMBLINE_LOG_LEVEL') as LogLevel | undefined) ?? 'info');
+  const level = envSetting('PLUMBLINE_LOG_LEVEL') ?? 'info';
+  if (!LOG_LEVELS.includes(level as LogLevel)) throw new ConfigError(`PLUMBLINE_LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${JSON.stringify(level)}`);
+  const log = createLogger(level as LogLevel);
 
   switch (command) {
     case 'check-config': {

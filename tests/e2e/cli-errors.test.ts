@@ -38,6 +38,14 @@ describe('a YAML alias bomb', () => {
   });
 });
 
+describe('PLUMBLINE_LOG_LEVEL', () => {
+  it('must be a known level (a typo would otherwise log everything or nothing)', () => {
+    const r = cli(['check-config', join(REPO_ROOT, 'deploy/plumbline.example.yaml')], { PLUMBLINE_LOG_LEVEL: 'verbose' });
+    expect(r.status).toBe(2);
+    expect(r.stderr).toBe('plumbline: PLUMBLINE_LOG_LEVEL must be one of debug, info, warn, error, got "verbose"\n');
+  });
+});
+
 const url = testDatabaseUrl();
 
 describe.skipIf(url === undefined)('an unexpected error (needs PLUMBLINE_TEST_DATABASE_URL)', () => {
