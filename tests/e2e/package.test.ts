@@ -49,7 +49,9 @@ describe('the packed and installed package', () => {
 
   beforeAll(() => {
     dir = mkdtempSync(join(tmpdir(), 'plumbline-pack-'));
-    const packed = JSON.parse(npm(['pack', '--json', '--pack-destination', dir], REPO_ROOT).stdout) as { filename: string; files: { path: string }[] }[];
+    // The prepack script's output may precede the JSON (older npm writes it to stdout).
+    const out = npm(['pack', '--json', '--pack-destination', dir], REPO_ROOT).stdout;
+    const packed = JSON.parse(out.slice(out.search(/^\[/m))) as { filename: string; files: { path: string }[] }[];
     tarball = join(dir, packed[0]!.filename);
     shipped = packed[0]!.files.map((f) => f.path).sort();
     prefix = join(dir, 'prefix');
