@@ -9,7 +9,7 @@
  * back-fills agree.
  */
 import type { Config } from '../config/index.ts';
-import { CHECK_KIND, type AlertRule, type Finding } from '../report/contract.ts';
+import { CHECK_KIND, type AlertRule, type Finding } from '../report/index.ts';
 
 export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule'>): string {
   return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}`;

@@ -14,7 +14,7 @@
  */
 import type { AboveThreshold } from '../config/index.ts';
 import { thinSorted, type FeatureVariation, type NumericProfile } from '../profile/index.ts';
-import type { Finding } from '../report/contract.ts';
+import type { Finding } from '../report/index.ts';
 import { distinctCountSorted } from '../stats/index.ts';
 import { applied, pct, statusAbove } from './status.ts';
 

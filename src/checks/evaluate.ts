@@ -6,8 +6,8 @@
  * differences nobody cares about.
  */
 import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
-import { type BaselineProfile, type CategoricalProfile, type DatasetCounts, type DayProfile, type NumericProfile, type WithinListCounts } from '../profile/index.ts';
-import type { BinEvidence, CheckName, Finding, Status } from '../report/contract.ts';
+import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
+import type { BinEvidence, CheckName, Finding, Status } from '../report/index.ts';
 import {
   benjaminiHochberg,
   binCountsSorted,

@@ -10,7 +10,7 @@
  */
 import type { AboveThreshold } from '../config/index.ts';
 import type { NumericProfile } from '../profile/index.ts';
-import type { Finding } from '../report/contract.ts';
+import type { Finding } from '../report/index.ts';
 import { countBeyondSorted, extremeBoundsSorted, type ExtremeBounds } from '../stats/index.ts';
 import { applied, fmt, pct, statusAbove } from './status.ts';
 
