@@ -108,6 +108,35 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     expect(warnings / checks).toBeLessThan(0.02);
   });
 
+  it('with adaptive thresholds (learned from the stored baseline days): clean days stay quiet, drift faults are still caught', async () => {
+    const adaptive = (days: number): typeof config =>
+      scenarioConfig(table, { storeSchema, overrides: { baseline: { window: { type: 'trailing', days } }, thresholds: { adaptive: { enabled: true } } } });
+    const clean = scenarioDates(SCENARIO).slice(7, BASELINE_DAYS);
+    let warnings = 0;
+    let drift = 0;
+    let learned = 0;
+    for (const date of clean) {
+      const { report } = await runDay({ config: adaptive(7), source: rt.source, store: rt.store, log: silentLogger }, date);
+      for (const f of report.findings.filter((x) => x.check === 'psi' || x.check === 'ks')) {
+        drift++;
+        if (f.status !== 'ok') warnings++;
+        if (f.thresholds.type === 'above' && f.thresholds.learned === true) {
+          learned++;
+          expect(f.evidence['learnedThreshold']).toMatchObject({ method: 'leave_one_out', days: 7 });
+        }
+      }
+    }
+    expect(learned).toBe(drift);
+    expect(warnings / drift).toBeLessThanOrEqual(0.01);
+    // The baseline (and its day-to-day variation) came back from the store for the fault days.
+    for (const i of [0, 1, 7]) {
+      const { plan, expect: want } = FAULTS[i]!;
+      const { report } = await runDay({ config: adaptive(BASELINE_DAYS), source: rt.source, store: rt.store, log: silentLogger }, plan.date);
+      const f = find(report, want.feature, want.check, want.rule)!;
+      expect(LEVEL[f.status], `${plan.kind}: ${f.summary}`).toBeGreaterThanOrEqual(LEVEL[want.atLeast]);
+    }
+  });
+
   it('counts null list ids, lists of one item and duplicated items instead of failing', async () => {
     const date = addDays(START, 60);
     const cols = 'snapshot_date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family';
