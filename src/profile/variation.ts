@@ -89,6 +89,7 @@ function categoryCounts(p: CategoricalProfile): Record<string, number> {
  * The variation of one numeric feature over its baseline days. `pieces[i]` is the thinned
  * sample day i contributed to `merged` (the pooled sample); `spec` the baseline's PSI bins.
  */
+/** `withKs`: a numeric (not binary) feature, which also gets per-day distinct counts. */
 export function numericVariation(days: readonly { date: string; profile: NumericProfile; piece: Float64Array }[], merged: Float64Array, spec: BinSpec, withKs: boolean): FeatureVariation {
   const dayCounts = days.map((d) => countsOverBins(spec, d.profile.sortedSample, d.profile.quality));
   const total = dayCounts.reduce((acc, c) => acc.map((x, i) => x + c[i]!), new Array<number>(dayCounts[0]?.length ?? 0).fill(0));
@@ -110,8 +111,8 @@ export function numericVariation(days: readonly { date: string; profile: Numeric
   return {
     looDays,
     psi: psiLoo,
-    ...(withKs ? { ks: ksLoo } : {}),
-    distinct: { sizes: DISTINCT_LADDER.slice(), perDay: days.map((d) => distinctLadder(d.profile.sortedSample)) },
+    // KS and the distinct check apply to numeric features only (a binary feature has two values).
+    ...(withKs ? { ks: ksLoo, distinct: { sizes: DISTINCT_LADDER.slice(), perDay: days.map((d) => distinctLadder(d.profile.sortedSample)) } } : {}),
   };
 }
 
