@@ -33,6 +33,25 @@ const isoDate = z
 
 const positiveInt = z.number().int().positive();
 
+/**
+ * Upper bounds of durations and counts, so that a typo fails at load time with its path
+ * instead of breaking at run time. Node's timers take at most 2^31 - 1 ms (about 24.8
+ * days; a longer delay fires after 1 ms, again and again), and PostgreSQL's
+ * statement_timeout is an int of milliseconds (at most 2147483647).
+ */
+const INT32_MAX_MS = 2_147_483_647;
+export const LIMITS = {
+  statementTimeoutSeconds: Math.floor(INT32_MAX_MS / 1000),
+  /** Rows of one day the stream engine holds in memory (about 40 GB at 50 features, see README "Sizing"). */
+  maxRowsPerDay: 100_000_000,
+  /** A timer Plumbline sets from the config: at most a day, far below Node's limit. */
+  timerSeconds: 86_400,
+  deadlineMinutes: 7 * 24 * 60,
+  /** Daily runs: a year. */
+  runs: 366,
+} as const;
+const countOfRuns = positiveInt.max(LIMITS.runs, `must be at most ${LIMITS.runs} (runs are daily: a year)`);
+
 function isRecord(v: unknown): v is Record<string, unknown> {
   return typeof v === 'object' && v !== null && !Array.isArray(v);
 }
@@ -89,7 +108,10 @@ export const DEFAULT_THRESHOLDS = {
   nonfinite_ratio: { warn: 0.0001, critical: 0.001 },
   type_error_ratio: { warn: 0.0001, critical: 0.001 },
   out_of_range_ratio: { warn: 0.001, critical: 0.01 },
-  distinct_ratio_drop: { warn: 0.5, critical: 0.9 },
+  // On the drop against the baseline days' median distinct count at the day's sample size.
+  distinct_ratio_drop: { warn: 0.2, critical: 0.5 },
+  // On the rise of the share of values beyond the baseline's extreme-value bounds.
+  extreme_value_ratio: { warn: 0.001, critical: 0.01 },
   new_category_ratio: { warn: 0.01, critical: 0.05 },
   rule_violation_ratio: { warn: 0.01, critical: 0.05 },
   flat_list_ratio: { warn: 0.05, critical: 0.2 },
@@ -103,6 +125,30 @@ export const DEFAULT_THRESHOLDS = {
   list_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
   label_positive_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 2 },
 } as const;
+
+/**
+ * Adaptive drift thresholds (checks/adaptive.ts): for each feature, PSI and KS D of every
+ * baseline day against the rest of the window (leave one out); warn at `margin` times the
+ * `quantile` of those values, never below `floor`; critical at `criticalMultiple` times warn,
+ * never below `floor` times `criticalMultiple`. Off by default: the fixed thresholds apply.
+ */
+const AdaptiveSchema = z
+  .strictObject({
+    enabled: z.boolean().default(false),
+    /** 1: the largest leave-one-out value (a window of 28 days estimates a 95 % quantile poorly). */
+    quantile: z.number().gt(0).max(1).default(1),
+    margin: z.number().min(1).default(1.5),
+    criticalMultiple: z.number().min(1).default(2),
+    /** Fewest leave-one-out days needed to learn a threshold; with fewer, the fixed thresholds apply. */
+    minDays: positiveInt.min(3).default(7),
+    floor: z
+      .strictObject({
+        psi: z.number().positive().default(0.02),
+        ks: z.number().positive().default(0.03),
+      })
+      .prefault({}),
+  })
+  .prefault({});
 
 const ThresholdsSchema = z
   .strictObject({
@@ -120,6 +166,13 @@ const ThresholdsSchema = z
     type_error_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.type_error_ratio),
     out_of_range_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.out_of_range_ratio),
     distinct_ratio_drop: AboveThreshold.default(DEFAULT_THRESHOLDS.distinct_ratio_drop),
+    extreme_value_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.extreme_value_ratio),
+    /**
+     * k of the extreme-value bounds: a value is extreme below the baseline's 0.1 % quantile
+     * minus k IQR or above its 99.9 % quantile plus k IQR.
+     */
+    extremeIqrMultiple: z.number().nonnegative().default(3),
+    adaptive: AdaptiveSchema,
     new_category_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.new_category_ratio),
     rule_violation_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.rule_violation_ratio),
     flat_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.flat_list_ratio),
@@ -147,6 +200,7 @@ const FeatureThresholdOverrides = z
     type_error_ratio: AboveThreshold.optional(),
     out_of_range_ratio: AboveThreshold.optional(),
     distinct_ratio_drop: AboveThreshold.optional(),
+    extreme_value_ratio: AboveThreshold.optional(),
     new_category_ratio: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
@@ -274,8 +328,11 @@ export const ConfigSchema = z
       /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
       engine: z.enum(['stream', 'pushdown']).default('stream'),
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
-      maxRowsPerDay: positiveInt.default(5_000_000),
-      statementTimeoutSeconds: positiveInt.default(900),
+      maxRowsPerDay: positiveInt.max(LIMITS.maxRowsPerDay, `must be at most ${LIMITS.maxRowsPerDay} rows (the stream engine holds the day in memory)`).default(2_000_000),
+      /** Server-side statement_timeout of source reads; PostgreSQL takes at most 2147483647 ms. */
+      statementTimeoutSeconds: positiveInt
+        .max(LIMITS.statementTimeoutSeconds, `must be at most ${LIMITS.statementTimeoutSeconds} seconds (PostgreSQL's statement_timeout limit, 2147483647 ms)`)
+        .default(900),
     }),
     features: z.array(FeatureSchema).min(1, 'declare at least one feature'),
     baseline: z
@@ -286,7 +343,7 @@ export const ConfigSchema = z
         /** Number of quantile bins for PSI (point masses and nulls get bins of their own). */
         bins: positiveInt.min(2).max(100).default(10),
         /** Fewest baseline days with data before drift checks run. */
-        minDays: positiveInt.default(1),
+        minDays: countOfRuns.default(1),
         /**
          * Another relation as the baseline, e.g. the training set the model was fitted on (same
          * columns as source.table); its dates from..to (all when omitted) replace the window.
@@ -304,12 +361,18 @@ export const ConfigSchema = z
         /** Consecutive runs at or above a level before a finding alerts, by kind of check. */
         consecutiveRuns: z
           .strictObject({
-            drift: positiveInt.default(2),
-            quality: positiveInt.default(1),
-            within_list: positiveInt.default(1),
-            dataset: positiveInt.default(1),
+            drift: countOfRuns.default(2),
+            quality: countOfRuns.default(1),
+            within_list: countOfRuns.default(1),
+            dataset: countOfRuns.default(1),
           })
           .prefault({}),
+        /**
+         * A critical finding this many times beyond its critical threshold (for ratio bands:
+         * above criticalAbove times it, or below criticalBelow divided by it), or a raised flag,
+         * alerts on its first run, whatever consecutiveRuns says. null: never.
+         */
+        immediateMultiple: z.number().min(1).nullable().default(3),
         /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */
         alertmanagerUrl: z.url().optional(),
       })
@@ -328,7 +391,7 @@ export const ConfigSchema = z
          * Wait before retrying a failed run (`serve`), doubled after each further failure, at
          * most one hour. Failures that are not connection trouble (bad config, a bug) wait 20 times as long.
          */
-        retryBaseSeconds: z.number().positive().max(3600).default(15),
+        retryBaseSeconds: z.number().min(1, 'must be at least 1 second').max(3600, 'must be at most 3600 seconds (an hour)').default(15),
         readiness: z
           .strictObject({
             /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
@@ -336,9 +399,9 @@ export const ConfigSchema = z
             /** Optional marker table: the day is ready once a row with that date exists. */
             markerTable: qualifiedName.optional(),
             markerDateColumn: identifier.default('snapshot_date'),
-            retryEverySeconds: positiveInt.default(300),
+            retryEverySeconds: positiveInt.max(LIMITS.timerSeconds, `must be at most ${LIMITS.timerSeconds} seconds (a day)`).default(300),
             /** After this long past the scheduled time, a missing day becomes a critical finding. */
-            deadlineMinutes: positiveInt.default(360),
+            deadlineMinutes: positiveInt.max(LIMITS.deadlineMinutes, `must be at most ${LIMITS.deadlineMinutes} minutes (a week)`).default(360),
           })
           .prefault({}),
       })

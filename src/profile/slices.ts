@@ -13,11 +13,9 @@
  * to SEGMENT_LABEL_MAX characters; slices are kept in arrays, never as object keys.
  */
 import type { Config } from '../config/index.ts';
-import type { CategoricalColumn, DayColumns } from '../source/index.ts';
-import { NULL_POSITION } from '../source/index.ts';
 import type { BinSpec } from '../stats/index.ts';
 import { buildDayProfile, type NumericProfiler, profileOnThisThread } from './day.ts';
-import type { SliceProfile } from './types.ts';
+import { NULL_POSITION, type CategoricalColumn, type DayColumns, type SliceProfile } from './types.ts';
 
 /** Longest segment value label, in characters. */
 export const SEGMENT_LABEL_MAX = 64;

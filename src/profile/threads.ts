@@ -18,14 +18,91 @@ export const PARALLEL_MIN_ROWS = 200_000;
 // The worker has the same extension as this module: .ts under tsx, .js in the build.
 const WORKER_URL = new URL(`./worker${extname(fileURLToPath(import.meta.url))}`, import.meta.url);
 
-function startWorker(): Worker {
-  // Under tsx the worker must register the TypeScript loader itself (hooks are per thread).
-  return WORKER_URL.pathname.endsWith('.ts')
-    ? new Worker(`import('tsx/esm/api').then((m) => { m.register(); return import(${JSON.stringify(WORKER_URL.href)}); })`, { eval: true })
-    : new Worker(WORKER_URL);
+/**
+ * A worker for `url`. A .ts worker (running from a checkout under tsx) registers the
+ * TypeScript loader itself, since loader hooks are per thread. The loader is resolved from
+ * this module, not from the working directory: an eval'd worker resolves bare names
+ * against the current folder, which is not the checkout when Plumbline is started from
+ * elsewhere. The compiled build (.js) needs no loader at all.
+ */
+function startWorker(url: URL): Worker {
+  if (!url.pathname.endsWith('.ts')) return new Worker(url);
+  const loader = import.meta.resolve('tsx/esm/api');
+  return new Worker(`import(${JSON.stringify(loader)}).then((m) => { m.register(); return import(${JSON.stringify(url.href)}); })`, { eval: true });
 }
 
-/** Worker threads kept for a while (one run): started once, reused by every profile they are given. */
+/**
+ * Profiles one share of the features on a worker. Settles exactly once: with the worker's
+ * answer, or with an error when the worker reports one, throws, or exits without answering
+ * (killed, out of memory, process.exit in a dependency), so a dead worker fails the run
+ * instead of leaving it waiting.
+ */
+export function runWorker(req: ProfileRequest, url: URL = WORKER_URL): { done: Promise<NumericProfile[]>; stop(): void } {
+  const worker = startWorker(url);
+  const done = new Promise<NumericProfile[]>((resolve, reject) => {
+    let settled = false;
+    const settle = (fn: () => void): void => {
+      if (settled) return;
+      settled = true;
+      fn();
+      void worker.terminate();
+    };
+    worker.once('message', (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }) => {
+      settle(() => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
+    });
+    worker.once('messageerror', (err) => settle(() => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err }))));
+    worker.once('error', (err) => settle(() => reject(new Error(`profile worker failed: ${err.message}`, { cause: err }))));
+    worker.once('exit', (code) => settle(() => reject(new Error(`profile worker stopped (exit code ${code}) before it sent the profiles`))));
+    worker.postMessage(req);
+  });
+  return { done, stop: () => void worker.terminate() };
+}
+
+/**
+ * A profiler that uses up to `threads` threads (default: the machine's cores). Features
+ * are dealt round-robin, the first share on this thread. `workerUrl` is for tests only.
+ */
+export function threadedProfiler(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): NumericProfiler {
+  return async (cols, g, indexes, config, bins) => {
+    if (threads <= 1 || cols.rows < PARALLEL_MIN_ROWS || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
+    const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
+    indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
+    const remote = shares.slice(1).map((share) =>
+      runWorker(
+        {
+          lists: cols.lists,
+          grouping: g,
+          jobs: share.map((fi) => {
+            const feature = config.features[fi]!;
+            const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+            // The worker holds the shared column now; this thread lets go of it.
+            releaseColumn(cols, fi);
+            return job;
+          }),
+        },
+        workerUrl,
+      ),
+    );
+    // Observed at once: a worker that fails while this thread profiles its own share must
+    // not become an unhandled rejection (which would end the process instead of the run).
+    const all = Promise.all(remote.map((r) => r.done));
+    all.catch(() => remote.forEach((r) => r.stop()));
+    let local: NumericProfile[];
+    try {
+      local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+    } catch (err) {
+      remote.forEach((r) => r.stop());
+      throw err;
+    }
+    const done = await all;
+    const results = new Map<number, NumericProfile>();
+    shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
+    shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
+    return indexes.map((fi) => results.get(fi)!);
+  };
+}
+
+/** Worker threads kept for a while (one day's run): started once, reused by every profile they are given. */
 export interface ProfilerPool {
   /** A profiler on this pool's threads; days of fewer than `minRows` rows stay on this thread. */
   profiler(minRows?: number): NumericProfiler;
@@ -35,31 +112,38 @@ export interface ProfilerPool {
 
 /**
  * A pool of up to `threads` threads (default: the machine's cores), this one included. Starting
- * a worker costs more than profiling a small day, so a run that profiles several row sets (the
- * day and its slices, src/profile/slices.ts) starts its workers once.
+ * a worker costs more than profiling a small row set, so a run that profiles several (a day and
+ * its slices, src/profile/slices.ts) starts its workers once. Each request settles exactly once,
+ * as runWorker's does; a worker that failed or exited is dropped and the next request starts
+ * another.
  */
-export function profilerPool(threads: number = availableParallelism()): ProfilerPool {
+export function profilerPool(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): ProfilerPool {
   const workers: (Worker | undefined)[] = [];
 
-  function request(i: number, req: ProfileRequest): Promise<NumericProfile[]> {
-    const worker = (workers[i] ??= startWorker());
-    return new Promise((resolve, reject) => {
-      const onMessage = (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }): void => {
-        worker.off('error', onError);
-        if (msg.ok) resolve(msg.profiles);
-        else reject(new Error(`profile worker failed: ${msg.error}`));
+  function request(i: number, req: ProfileRequest): { done: Promise<NumericProfile[]>; stop(): void } {
+    const worker = (workers[i] ??= startWorker(workerUrl));
+    const drop = (): void => {
+      if (workers[i] === worker) workers[i] = undefined;
+      void worker.terminate();
+    };
+    const done = new Promise<NumericProfile[]>((resolve, reject) => {
+      let settled = false;
+      const settle = (ok: boolean, fn: () => void): void => {
+        if (settled) return;
+        settled = true;
+        worker.off('message', onMessage).off('messageerror', onMessageError).off('error', onError).off('exit', onExit);
+        if (!ok) drop();
+        fn();
       };
-      const onError = (err: Error): void => {
-        worker.off('message', onMessage);
-        // A worker that failed is gone: the next request starts another.
-        if (workers[i] === worker) workers[i] = undefined;
-        void worker.terminate();
-        reject(err);
-      };
-      worker.once('message', onMessage);
-      worker.once('error', onError);
+      const onMessage = (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }): void =>
+        settle(msg.ok, () => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
+      const onMessageError = (err: Error): void => settle(false, () => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err })));
+      const onError = (err: Error): void => settle(false, () => reject(new Error(`profile worker failed: ${err.message}`, { cause: err })));
+      const onExit = (code: number): void => settle(false, () => reject(new Error(`profile worker stopped (exit code ${code}) before it sent the profiles`)));
+      worker.on('message', onMessage).on('messageerror', onMessageError).on('error', onError).on('exit', onExit);
       worker.postMessage(req);
     });
+    return { done, stop: drop };
   }
 
   return {
@@ -81,10 +165,19 @@ export function profilerPool(threads: number = availableParallelism()): Profiler
             }),
           }),
         );
-        const local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+        // Observed at once, as in threadedProfiler: a failing worker must not become an unhandled rejection.
+        const all = Promise.all(remote.map((r) => r.done));
+        all.catch(() => remote.forEach((r) => r.stop()));
+        let local: NumericProfile[];
+        try {
+          local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+        } catch (err) {
+          remote.forEach((r) => r.stop());
+          throw err;
+        }
+        const done = await all;
         const results = new Map<number, NumericProfile>();
         shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
-        const done = await Promise.all(remote);
         shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
         return indexes.map((fi) => results.get(fi)!);
       };
@@ -93,20 +186,5 @@ export function profilerPool(threads: number = availableParallelism()): Profiler
       const running = workers.splice(0).filter((w): w is Worker => w !== undefined);
       await Promise.all(running.map((w) => w.terminate()));
     },
-  };
-}
-
-/**
- * A profiler that uses up to `threads` threads (default: the machine's cores). Features
- * are dealt round-robin, the first share on this thread; workers last one profile.
- */
-export function threadedProfiler(threads: number = availableParallelism()): NumericProfiler {
-  return async (cols, g, indexes, config, bins) => {
-    const pool = profilerPool(threads);
-    try {
-      return await pool.profiler()(cols, g, indexes, config, bins);
-    } finally {
-      await pool.close();
-    }
   };
 }

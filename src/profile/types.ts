@@ -32,6 +32,11 @@ export interface NumericProfile {
    * (BaselineProfile.fineBins). With it, KS D comes from the binned ECDFs, with an error bound.
    */
   fineBinCounts?: number[];
+  /**
+   * Pushdown engine only: exact counts of the day's finite values beyond the baseline's
+   * extreme-value bounds (PushdownSpecs.extremeBounds), with the day's exact extremes.
+   */
+  extremeCounts?: { lower: number; upper: number; below: number; above: number; min: number | null; max: number | null };
 }
 
 export interface CategoricalProfile {
@@ -44,6 +49,25 @@ export interface CategoricalProfile {
 }
 
 export type FeatureProfile = NumericProfile | CategoricalProfile;
+
+/**
+ * A feature's day-to-day variation over its baseline window (profile/variation.ts): the
+ * yardstick of the per-day distinct check and of the adaptive drift thresholds.
+ */
+export interface FeatureVariation {
+  /** Baseline days with a leave-one-out statistic, in window order. */
+  looDays: string[];
+  /** PSI of each of those days against the rest of the window (over the baseline's bins). */
+  psi: number[];
+  /** KS D of each of those days against the rest of the window (numeric features). */
+  ks?: number[];
+  /** Distinct values of each baseline day's sample thinned to each ladder size (numeric features). */
+  distinct?: {
+    sizes: number[];
+    /** perDay[d][i]: day d's distinct count at sizes[i]; a day's list ends at the largest size its sample reaches. */
+    perDay: number[][];
+  };
+}
 
 export interface DatasetCounts {
   rows: number;
@@ -100,6 +124,46 @@ export interface BaselineProfile {
   features: Record<string, FeatureProfile>;
   sampleSize: number;
   createdAt: string;
+  /** Day-to-day variation per feature; absent on baselines stored before it existed. */
+  variation?: Record<string, FeatureVariation>;
   /** Names of the slices seen on the window's days (each slice's baseline is stored apart). */
   slices?: string[];
 }
+
+/** A categorical column: codes into a dictionary of the day's values. */
+export interface CategoricalColumn {
+  codes: Int32Array; // -1 for null
+  dictionary: string[];
+}
+
+/**
+ * One day of the source as columns (read by source/read-day.ts, profiled by day.ts): per
+ * feature typed arrays and per-row list indexes, never one object per row.
+ */
+export interface DayColumns {
+  date: string;
+  rows: number;
+  /** Rows of the day before whole-list sampling. */
+  totalRows: number;
+  sampled: boolean;
+  /** List index per row (0..lists-1), -1 when the list id is null. */
+  listOf: Int32Array;
+  lists: number;
+  /** 53-bit hash of the item id per row (NaN for a null id); only compared within a list. */
+  itemHash: Float64Array;
+  /** Position per row; NULL_POSITION when null. */
+  position: Int32Array;
+  /** Label per row, NaN when null; null when no label column is configured. */
+  label: Float64Array | null;
+  /** Per config feature index: numeric values (NaN where missing) or null for categorical. */
+  numeric: (Float64Array | null)[];
+  /** Per config feature index: missing codes, or null when nothing was missing. */
+  missing: (Uint8Array | null)[];
+  categorical: (CategoricalColumn | null)[];
+  /** Per segment column of config.slices.segments, its text value per row (absent when none are configured). */
+  segments?: CategoricalColumn[];
+}
+
+/** The position of a row whose position is null. */
+export const NULL_POSITION = -2147483648;
+

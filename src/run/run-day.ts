@@ -7,7 +7,7 @@
  * result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
-import { applyAlertState, evaluateSlices, snapshotMissingFinding, type FindingDraft } from '../checks/index.ts';
+import { applyAlertState, baselineExtremeBounds, evaluateSlices, snapshotMissingFinding, type FindingDraft } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
@@ -31,7 +31,7 @@ import {
   type SliceDef,
   type SliceProfile,
 } from '../profile/index.ts';
-import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
+import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/index.ts';
 import {
   assemblePushdownProfile,
   checkJsonbKeys,
@@ -147,9 +147,10 @@ async function readProfile(
   date: string,
   bins: BaselineProfile['bins'] | null,
   fineBins: BaselineProfile['fineBins'] | null = null,
+  extremeBounds: PushdownSpecs['extremeBounds'] = null,
   sliceSpecs: SliceSpecs = new Map(),
 ): Promise<DayProfile> {
-  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null }, sliceSpecs);
+  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null, extremeBounds }, sliceSpecs);
   const t0 = performance.now();
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
@@ -180,7 +181,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   const t0 = performance.now();
   const specsOf = (name: string): PushdownSpecs => {
     const b = sliceSpecs.get(name);
-    return { bins: b?.bins ?? null, fineBins: b?.fineBins ?? null };
+    return { bins: b?.bins ?? null, fineBins: b?.fineBins ?? null, extremeBounds: b === undefined ? null : extremeBoundsOf(config, b) };
   };
   const { agg, cols, defs, sliceAggs } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, config, plan, date, specs);
@@ -247,7 +248,8 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   // Late rows for a baseline day change its count, and with it the fingerprint.
   const fingerprint = sha256({ profileFp, days: dates.map((d) => [d, rows.get(d)]) });
   const cached = await store.loadBaseline(fingerprint);
-  if (cached !== null) {
+  // A baseline stored before per-day variation existed is rebuilt from the stored day profiles.
+  if (cached !== null && cached.variation !== undefined) {
     const slices = new Map<string, BaselineProfile>();
     for (const name of cached.slices ?? []) {
       const b = await store.loadBaseline(sliceFingerprint(fingerprint, name));
@@ -299,6 +301,18 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   return { whole: baseline, slices: sliceBaselines };
 }
 
+/** The baseline's extreme-value bounds per numeric feature, which the pushdown engine counts against. */
+function extremeBoundsOf(config: Config, baseline: BaselineProfile): NonNullable<PushdownSpecs['extremeBounds']> {
+  const out: NonNullable<PushdownSpecs['extremeBounds']> = {};
+  for (const f of config.features) {
+    const base = baseline.features[f.name];
+    if (f.kind !== 'numeric' || base === undefined || base.kind === 'categorical') continue;
+    const b = baselineExtremeBounds(base, config.thresholds.extremeIqrMultiple);
+    if (b !== null) out[f.name] = { lower: b.lower, upper: b.upper };
+  }
+  return out;
+}
+
 export interface RunResult {
   report: Report;
   durationSeconds: number;
@@ -326,7 +340,8 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const sliceBaselines = new Map([...stored.slices].map(([name, b]) => [name, fine(b)]));
     deps.log.debug('baseline ready', { runDate, slices: sliceBaselines.size, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
-    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, sliceBaselines);
+    const pushdown = deps.config.source.engine === 'pushdown';
+    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, pushdown ? extremeBoundsOf(deps.config, baseline) : null, sliceBaselines);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
     const tSave = performance.now();

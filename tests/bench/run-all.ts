@@ -6,6 +6,7 @@
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
+import { main as trustBench } from './trust.bench.ts';
 import { main as slicesBench } from './slices.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
@@ -16,6 +17,9 @@ await runBench();
 console.log('');
 console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
 await pushdownBench();
+console.log('');
+console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
+await trustBench();
 console.log('');
 console.log('== slices: a day with and without a top-k slice and a segment column (tests/bench/slices.bench.ts)');
 await slicesBench();
