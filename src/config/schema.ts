@@ -308,6 +308,19 @@ export const ConfigSchema = z
     store: z
       .strictObject({
         schema: identifier.default('plumbline'),
+        /** What the leader deletes after each successful run, so the store stays bounded (src/store/retention.ts). */
+        retention: z
+          .strictObject({
+            /** false: nothing is ever deleted. */
+            enabled: z.boolean().default(true),
+            /** Reports, runs and findings are kept this many days (the two newest evaluated dates always). */
+            reportDays: positiveInt.max(36_600).default(400),
+            /** Day profiles are kept as long as a baseline window needs them, and at least this many days. */
+            dayProfileMinDays: positiveInt.max(36_600).default(35),
+            /** Baselines used by this many newest evaluated dates (and this many newest saved) are kept. */
+            baselinesKept: positiveInt.max(1000).default(3),
+          })
+          .prefault({}),
       })
       .prefault({}),
   })
