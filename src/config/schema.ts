@@ -91,12 +91,16 @@ export const DEFAULT_THRESHOLDS = {
   out_of_range_ratio: { warn: 0.001, critical: 0.01 },
   distinct_ratio_drop: { warn: 0.5, critical: 0.9 },
   new_category_ratio: { warn: 0.01, critical: 0.05 },
+  // Distinct categories of the day over the baseline's: our own choice (a tail that triples, ids leaking into a category column).
+  category_cardinality: { warn: 3, critical: 10 },
   rule_violation_ratio: { warn: 0.01, critical: 0.05 },
   flat_list_ratio: { warn: 0.05, critical: 0.2 },
   list_size_psi: { warn: 0.1, critical: 0.25 },
   duplicate_item_ratio: { warn: 0.001, critical: 0.01 },
   position_gap_ratio: { warn: 0.001, critical: 0.01 },
   null_list_id_ratio: { warn: 0.0001, critical: 0.001 },
+  null_item_id_ratio: { warn: 0.0001, critical: 0.001 },
+  null_label_ratio: { warn: 0.01, critical: 0.05 },
   singleton_list_ratio: { warn: 0.05, critical: 0.2 },
   no_positive_list_ratio: { warn: 0.05, critical: 0.15 },
   row_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
@@ -121,12 +125,15 @@ const ThresholdsSchema = z
     out_of_range_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.out_of_range_ratio),
     distinct_ratio_drop: AboveThreshold.default(DEFAULT_THRESHOLDS.distinct_ratio_drop),
     new_category_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.new_category_ratio),
+    category_cardinality: AboveThreshold.default(DEFAULT_THRESHOLDS.category_cardinality),
     rule_violation_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.rule_violation_ratio),
     flat_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.flat_list_ratio),
     list_size_psi: AboveThreshold.default(DEFAULT_THRESHOLDS.list_size_psi),
     duplicate_item_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.duplicate_item_ratio),
     position_gap_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.position_gap_ratio),
     null_list_id_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_list_id_ratio),
+    null_item_id_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_item_id_ratio),
+    null_label_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_label_ratio),
     singleton_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.singleton_list_ratio),
     no_positive_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.no_positive_list_ratio),
     row_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.row_count_ratio),
@@ -148,6 +155,7 @@ const FeatureThresholdOverrides = z
     out_of_range_ratio: AboveThreshold.optional(),
     distinct_ratio_drop: AboveThreshold.optional(),
     new_category_ratio: AboveThreshold.optional(),
+    category_cardinality: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
   })
@@ -241,6 +249,10 @@ export const ConfigSchema = z
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
       maxRowsPerDay: positiveInt.default(5_000_000),
       statementTimeoutSeconds: positiveInt.default(900),
+      /** Categorical features keep their most frequent categories up to this many a day (and in a baseline), the rest as one bucket. */
+      maxCategories: positiveInt.max(100_000).default(1000),
+      /** Category values are cut to this many characters (a 10 kB value must not cost 10 kB per distinct value). */
+      maxCategoryLength: positiveInt.max(10_000).default(200),
     }),
     features: z.array(FeatureSchema).min(1, 'declare at least one feature'),
     baseline: z

@@ -7,6 +7,7 @@ import type { DayColumns } from '../source/index.ts';
 import { NULL_POSITION } from '../source/index.ts';
 import {
   binCountsSorted,
+  boundCategories,
   distinctCountSorted,
   isFlatList,
   listAggregate,
@@ -55,7 +56,12 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
   let listsWithoutPositive = 0;
   let scratch = new Float64Array(64);
   let nullListIdRows = 0;
-  for (let i = 0; i < cols.rows; i++) if (cols.listOf[i]! < 0) nullListIdRows++;
+  let nullItemIdRows = 0;
+  for (let i = 0; i < cols.rows; i++) {
+    if (cols.listOf[i]! < 0) nullListIdRows++;
+    // A null item id hashes to NaN (never equal to another, so never a duplicate).
+    if (Number.isNaN(cols.itemHash[i]!)) nullItemIdRows++;
+  }
 
   for (let l = 0; l < cols.lists; l++) {
     const a = g.start[l]!;
@@ -109,6 +115,7 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
     rows: cols.rows,
     lists: cols.lists,
     nullListIdRows,
+    nullItemIdRows,
     listSizeCounts: Array.from(sizes),
     singletonLists,
     listsWithDuplicateItems,
@@ -191,7 +198,7 @@ export function countsOverBins(bins: BinSpec, sortedFinite: Float64Array, q: Qua
   return counts;
 }
 
-function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, feature: Config['features'][number]): CategoricalProfile {
+function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, feature: Config['features'][number], maxCategories: number): CategoricalProfile {
   const col = cols.categorical[fi]!;
   const counts = new Float64Array(col.dictionary.length);
   let nulls = 0;
@@ -200,10 +207,11 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
     if (c < 0) nulls++;
     else counts[c]!++;
   }
-  const categories: Record<string, number> = {};
+  const all = new Map<string, number>();
   col.dictionary.forEach((name, c) => {
-    categories[name] = counts[c]!;
+    if (counts[c]! > 0) all.set(name, counts[c]!);
   });
+  const categories = boundCategories(all, maxCategories);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -229,7 +237,7 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
     withinList = { listsJudged, flatLists, ruleViolations: 0 };
   }
   const quality: QualityCounts = { rows: cols.rows, nulls, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: cols.rows - nulls };
-  return { kind: 'categorical', quality, categories, distinct: col.dictionary.length, withinList };
+  return { kind: 'categorical', quality, categories, distinct: all.size, withinList };
 }
 
 /**
@@ -268,7 +276,7 @@ export async function buildDayProfile(cols: DayColumns, config: Config, bins: Re
   const numericProfiles = profiler(cols, g, numeric, config, bins);
   const dataset = datasetCounts(cols, g);
   config.features.forEach((f, fi) => {
-    if (f.kind === 'categorical') features[f.name] = categoricalProfile(cols, g, fi, f);
+    if (f.kind === 'categorical') features[f.name] = categoricalProfile(cols, g, fi, f, config.source.maxCategories);
   });
   (await numericProfiles).forEach((p, i) => {
     features[config.features[numeric[i]!]!.name] = p;

@@ -31,6 +31,7 @@ export const FEATURE_CHECKS = [
   'constant',
   'distinct_ratio_drop',
   'new_category_ratio',
+  'category_cardinality',
   'rule_violation_ratio',
   'flat_list_ratio',
 ] as const;
@@ -45,9 +46,11 @@ export const DATASET_CHECKS = [
   'duplicate_item_ratio',
   'position_gap_ratio',
   'null_list_id_ratio',
+  'null_item_id_ratio',
   'singleton_list_ratio',
   'label_positive_ratio',
   'no_positive_list_ratio',
+  'null_label_ratio',
 ] as const;
 export type DatasetCheck = (typeof DATASET_CHECKS)[number];
 
@@ -65,6 +68,7 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   constant: 'quality',
   distinct_ratio_drop: 'quality',
   new_category_ratio: 'drift',
+  category_cardinality: 'quality',
   rule_violation_ratio: 'within_list',
   flat_list_ratio: 'within_list',
   snapshot_missing: 'dataset',
@@ -74,6 +78,8 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   duplicate_item_ratio: 'dataset',
   position_gap_ratio: 'dataset',
   null_list_id_ratio: 'dataset',
+  null_item_id_ratio: 'dataset',
+  null_label_ratio: 'dataset',
   singleton_list_ratio: 'dataset',
   label_positive_ratio: 'dataset',
   no_positive_list_ratio: 'dataset',

@@ -50,7 +50,8 @@ export function configFingerprint(config: Config): string {
 /** Everything that changes a day's profile (not thresholds: those apply later). */
 export function profileFingerprint(config: Config): string {
   return sha256({
-    v: 1,
+    // 2: category counts stored as Maps, bounded and cut (source.maxCategories, maxCategoryLength).
+    v: 2,
     source: config.source,
     features: config.features.map(({ thresholds: _t, ...f }) => f),
     sampleSize: config.baseline.sampleSize,
@@ -86,7 +87,7 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
 async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null): Promise<DayProfile> {
   if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null });
   const t0 = performance.now();
-  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
+  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength }));
   const t1 = performance.now();
   const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
   deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
@@ -101,7 +102,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   const t0 = performance.now();
   const { agg, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, deps.config, plan, date, specs);
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength });
     return { agg, cols };
   });
   const t1 = performance.now();

@@ -30,7 +30,7 @@ import { featureSource, type Config, type FeatureConfig } from '../config/index.
 import { quoteIdent, type PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
-import { emptyQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { boundCategories, emptyQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import type { SourcePlan } from './plan.ts';
 
 /** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
@@ -64,7 +64,7 @@ export interface NumericAggregates {
 export interface DayAggregates {
   dataset: DatasetCounts;
   numeric: Record<string, NumericAggregates>;
-  categorical: Record<string, { rows: number; nulls: number; categories: Record<string, number> }>;
+  categorical: Record<string, { rows: number; nulls: number; categories: Map<string, number> }>;
   withinList: Record<string, WithinListCounts>;
 }
 
@@ -187,7 +187,7 @@ function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: n
   const where = featureSource(f, config.source.featuresColumn);
   if ('jsonbColumn' in where) {
     const key = p.add(where.key, 'text');
-    if (f.kind === 'categorical') return { feature: f, value: `(${quoteIdent(where.jsonbColumn)} ->> ${key})`, typeError: null };
+    if (f.kind === 'categorical') return { feature: f, value: cutCategory(`(${quoteIdent(where.jsonbColumn)} ->> ${key})`, config, p), typeError: null };
     const j = `(${quoteIdent(where.jsonbColumn)} -> ${key})`;
     // As the stream reader parses jsonb text: numbers, true/false as 1/0, null; anything else is a type error.
     const value = `(CASE jsonb_typeof(${j}) WHEN 'number' THEN (${j})::float8 WHEN 'boolean' THEN (CASE WHEN ${j} = 'true'::jsonb THEN 1 ELSE 0 END)::float8 END)`;
@@ -195,7 +195,13 @@ function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: n
   }
   const fp = plan.features.find((x) => x.index === index);
   if (fp === undefined) throw new DataError(`feature ${f.name} is not in the source plan`);
-  return { feature: f, value: fp.expression, typeError: null };
+  return { feature: f, value: f.kind === 'categorical' ? cutCategory(fp.expression, config, p) : fp.expression, typeError: null };
+}
+
+/** A category value cut as stats/categorical.ts truncateCategory cuts it (left() counts characters, as it does). */
+function cutCategory(v: string, config: Config, p: Params): string {
+  const max = p.add(config.source.maxCategoryLength, 'int4');
+  return `(CASE WHEN length(${v}) > ${max} THEN left(${v}, ${max}) || '\u2026' ELSE ${v} END)`;
 }
 
 /** PostgreSQL sorts NaN above every number, so "finite" must exclude it explicitly. */
@@ -238,6 +244,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   const inner: string[] = [
     `(${listId} IS NULL) AS nl`,
     `count(*) AS n`,
+    `count(*) - count(${item}) AS ni`,
     `(count(${item}) <> count(DISTINCT ${item})) AS dup`,
     // Positions must be n distinct consecutive integers starting at 0 or 1 (nulls are gaps).
     `coalesce(count(${pos}) < count(*) OR count(DISTINCT ${pos}) < count(*) OR min(${pos}) NOT IN (0, 1) OR max(${pos})::int8 - min(${pos})::int8 <> count(*) - 1, true) AS gap`,
@@ -276,7 +283,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   });
   const sizeCap = lp.add(LIST_SIZE_BINS, 'int8');
   const wl = wlNames.length === 0 ? `'{}'::int8[]` : `ARRAY[${wlNames.map((w) => `sum(${w} & 1), sum((${w} >> 1) & 1), sum(${w} >> 2)`).join(', ')}]::int8[]`;
-  const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows,
+  const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows, sum(ni) AS ni,
        count(*) FILTER (WHERE dup) AS dup, count(*) FILTER (WHERE gap) AS gap,
        sum(ly) AS ly, sum(lp) AS lp, count(*) FILTER (WHERE lp = 0) AS nopos,
        ${wl} AS wl
@@ -342,14 +349,15 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
   const q = buildPushdownQueries(config, plan, date, specs);
   await preparePushdownSession(client);
 
-  const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
+  const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; ni: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
   const sizes = new Array<number>(LIST_SIZE_BINS).fill(0);
-  const dataset: DatasetCounts = { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
+  const dataset: DatasetCounts = { rows: 0, lists: 0, nullListIdRows: 0, nullItemIdRows: 0, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
   const itemFeatures = config.features.filter((f) => f.scope === 'item');
   const wlSums = new Array<number>(itemFeatures.length * 3).fill(0);
   for (const r of listRes.rows) {
     const rows = Number(r.rows);
     dataset.rows += rows;
+    dataset.nullItemIdRows += Number(r.ni);
     // Rows without a list id form one group of their own and belong to no list.
     if (r.nl) {
       dataset.nullListIdRows += rows;
@@ -378,7 +386,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
   for (const f of config.features) {
-    if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: {} };
+    if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: new Map() };
     else {
       const spec = countingSpec(specs, f.name);
       numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
@@ -391,7 +399,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       const cat = categorical[f.name]!;
       cat.rows += n;
       if (r.c === null) cat.nulls += n;
-      else cat.categories[r.c] = (cat.categories[r.c] ?? 0) + n;
+      else cat.categories.set(r.c, (cat.categories.get(r.c) ?? 0) + n);
       continue;
     }
     const a = numeric[f.name]!;
@@ -432,7 +440,8 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
     if (f.kind === 'categorical') {
       const c = agg.categorical[f.name]!;
       const quality: QualityCounts = { ...emptyQualityCounts(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
-      const profile: CategoricalProfile = { kind: 'categorical', quality, categories: c.categories, distinct: Object.keys(c.categories).length, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
+      const categories = boundCategories(c.categories, config.source.maxCategories);
+      const profile: CategoricalProfile = { kind: 'categorical', quality, categories, distinct: c.categories.size, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
       features[f.name] = profile;
       continue;
     }

@@ -5,10 +5,24 @@ import { StatsInputError } from './errors.ts';
 import { psi } from './psi.ts';
 import type { PsiResult } from './psi.ts';
 
-function readCounts(side: string, counts: Record<string, number>): Map<string, number> {
+/**
+ * Key of the bucket holding every category beyond the kept ones, and of the missing values
+ * where a comparison counts them as a bin. PostgreSQL text cannot contain NUL, so no category
+ * read from the source can be either.
+ */
+export const OTHER_CATEGORY = '\u0000other';
+export const NULL_CATEGORY = '\u0000null';
+
+/** Category counts as a Map (a plain object would turn `constructor` or `__proto__` into inherited members). */
+export type CategoryCounts = ReadonlyMap<string, number>;
+
+function entriesOf(counts: CategoryCounts | Record<string, number>): [string, unknown][] {
+  return counts instanceof Map ? [...counts] : Object.keys(counts).map((k) => [k, (counts as Record<string, number>)[k]]);
+}
+
+function readCounts(side: string, counts: CategoryCounts | Record<string, number>): Map<string, number> {
   const out = new Map<string, number>();
-  for (const key of Object.keys(counts)) {
-    const c = counts[key];
+  for (const [key, c] of entriesOf(counts)) {
     if (!(typeof c === 'number' && Number.isFinite(c) && c >= 0)) {
       throw new StatsInputError(`categoryPsi requires finite non-negative counts; ${side}[${JSON.stringify(key)}] is ${String(c)}`);
     }
@@ -39,14 +53,16 @@ function byName(a: string, b: string): number {
  * Cost: O(k log k) for k categories. Throws on negative or non-finite counts and when either
  * side has no rows.
  *
+ * Counts come as a Map (or, for literals, an object's own keys).
+ *
  * Example: categoryPsi({ a: 60, b: 40 }, { a: 50, b: 40, c: 10 }) => categories ['a', 'b', 'c'],
  * unseen ['c'], unseenShare 0.1, psi as psi([60, 40, 0], [50, 40, 10])
  *
  * Source: Siddiqi, N. (2006), Credit Risk Scorecards, Wiley (PSI over attribute groups).
  */
 export function categoryPsi(
-  baseline: Record<string, number>,
-  current: Record<string, number>,
+  baseline: CategoryCounts | Record<string, number>,
+  current: CategoryCounts | Record<string, number>,
 ): PsiResult & { categories: string[]; unseenShare: number; unseen: string[] } {
   const b = readCounts('baseline', baseline);
   const c = readCounts('current', current);
@@ -63,4 +79,48 @@ export function categoryPsi(
   let unseenTotal = 0;
   for (const k of unseen) unseenTotal += c.get(k) as number;
   return { ...result, categories, unseenShare: unseenTotal / currentTotal, unseen };
+}
+
+/**
+ * A category value cut to at most `maxLength` characters (Unicode code points, as PostgreSQL's
+ * left() counts them), with "…" appended when it was cut, so a cut value never equals an
+ * uncut one of the same length.
+ *
+ * Why: category strings come from the data; a 10 kB value repeated in every row must not
+ * become 10 kB per distinct value in memory, in the store and in evidence.
+ *
+ * Cost: O(maxLength). Example: truncateCategory('abcdef', 3) => 'abc…'
+ *
+ * Source: definition of this unit.
+ */
+export function truncateCategory(value: string, maxLength: number): string {
+  if (value.length <= maxLength) return value;
+  const points = Array.from(value.slice(0, 2 * maxLength));
+  return points.length <= maxLength && value.length <= 2 * maxLength ? value : `${points.slice(0, maxLength).join('')}\u2026`;
+}
+
+/**
+ * The `limit` most frequent categories (ties by name, code-unit order) and one OTHER_CATEGORY
+ * entry with the rows of all the others (an OTHER_CATEGORY already in `counts` adds to it).
+ * Returns `counts` itself when nothing needs folding.
+ *
+ * Why: the number of distinct values of a categorical feature is set by the data, not by the
+ * config; a profile kept for months must not grow with it. The heavy hitters carry nearly all
+ * of a PSI; the tail is compared as one bucket.
+ *
+ * Cost: O(k log k) for k categories. Example: boundCategories(new Map([['a', 5], ['b', 3], ['c', 1]]), 1)
+ *   => Map { 'a' => 5, OTHER_CATEGORY => 4 }
+ *
+ * Source: definition of this unit (a top-k summary with a remainder bucket).
+ */
+export function boundCategories(counts: CategoryCounts, limit: number): Map<string, number> {
+  if (!(Number.isInteger(limit) && limit >= 1)) throw new StatsInputError(`boundCategories requires a limit that is an integer >= 1; got ${String(limit)}`);
+  const named = [...counts].filter(([k]) => k !== OTHER_CATEGORY);
+  if (named.length <= limit) return new Map(counts);
+  named.sort((x, y) => y[1] - x[1] || byName(x[0], y[0]));
+  const out = new Map(named.slice(0, limit));
+  let other = counts.get(OTHER_CATEGORY) ?? 0;
+  for (let i = limit; i < named.length; i++) other += named[i]![1];
+  out.set(OTHER_CATEGORY, other);
+  return out;
 }

@@ -26,4 +26,5 @@ export {
 export type { QualityCounts } from './quality.ts';
 export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViolated } from './withinlist.ts';
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
-export { categoryPsi } from './categorical.ts';
+export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCategory } from './categorical.ts';
+export type { CategoryCounts } from './categorical.ts';

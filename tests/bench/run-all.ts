@@ -1,11 +1,12 @@
 /**
- * `npm run bench`: every benchmark in turn; each prints its own figures. The run
- * benchmark needs a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
+ * `npm run bench`: every benchmark in turn; each prints its own figures. The run, pushdown
+ * and store benchmarks need a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
  * PLUMBLINE_TEST_DATABASE_URL) and says so when there is none.
  */
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
+import { main as storeBench } from './store.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -15,3 +16,6 @@ await runBench();
 console.log('');
 console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
 await pushdownBench();
+console.log('');
+console.log('== the store over 90 daily runs, with and without retention (tests/bench/store.bench.ts)');
+await storeBench();

@@ -591,7 +591,21 @@ function storeSuite(target: Target): void {
         price_z: { kind: 'numeric', quality, binCounts: [400, 300, 297, 3], sortedSample: sample, distinct: sample.length, mean: -0, withinList: { listsJudged: 500, flatLists: 4, ruleViolations: 1 } },
         has_discount: { kind: 'binary', quality, binCounts: [700, 300, 0], sortedSample: Float64Array.of(0, 0, 1), distinct: 2, mean: 1 / 3, withinList: null },
         not_seen_yet: { kind: 'numeric', quality, binCounts: [0], sortedSample: new Float64Array(0), distinct: 0, mean: null, withinList: null },
-        colour: { kind: 'categorical', quality, categories: { teal: 600, ochre: 397, $plumbline: 3 }, distinct: 3, withinList: null },
+        // Category names are data: the codec's own tag and prototype names are keys like any other.
+        colour: {
+          kind: 'categorical',
+          quality,
+          categories: new Map([
+            ['teal', 600],
+            ['ochre', 390],
+            ['$plumbline', 3],
+            ['__proto__', 2],
+            ['constructor', 4],
+            ['toString', 1],
+          ]),
+          distinct: 6,
+          withinList: null,
+        },
       };
       return {
         fingerprint,
@@ -604,6 +618,7 @@ function storeSuite(target: Target): void {
           rows: 1000,
           lists: 51,
           nullListIdRows: 0,
+          nullItemIdRows: 0,
           listSizeCounts: [1, 0, 50],
           singletonLists: 1,
           listsWithDuplicateItems: 0,
@@ -678,6 +693,7 @@ function storeSuite(target: Target): void {
           rows: 4,
           lists: 2,
           nullListIdRows: 0,
+          nullItemIdRows: 0,
           listSizeCounts: [0, 2],
           singletonLists: 0,
           listsWithDuplicateItems: 0,
