@@ -187,7 +187,7 @@ export const FeatureSchema = z
       .strictObject({
         rule: z.enum(WITHIN_LIST_RULES),
         /** Absolute tolerance on the rule's quantities (e.g. |min - 0| <= tolerance for minmax). */
-        tolerance: z.number().nonnegative().default(1e-6),
+        tolerance: z.number().nonnegative().max(1e6).default(1e-6),
       })
       .optional(),
     thresholds: FeatureThresholdOverrides,

@@ -160,8 +160,9 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
       withinList = addWithinList(withinList, p.withinList);
       totalFinite += p.quality.finite;
-      if (p.mean !== null) weightedMean += p.mean * p.quality.finite;
     }
+    // Weights before products: a mean near 1e308 times a count would overflow.
+    for (const p of nums) if (p.mean !== null && totalFinite > 0) weightedMean += p.mean * (p.quality.finite / totalFinite);
     // Pool each day's sample in proportion to its finite values.
     const pieces: Float64Array[] = [];
     let pooled = 0;
@@ -189,7 +190,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       binCounts: countsOverBins(spec, merged, q),
       sortedSample: merged,
       distinct: distinctCountSorted(merged),
-      mean: totalFinite > 0 ? weightedMean / totalFinite : null,
+      mean: totalFinite > 0 ? weightedMean : null,
       withinList,
     };
   }

@@ -6,8 +6,10 @@ import type { Config } from '../config/index.ts';
 import type { DayColumns } from '../source/index.ts';
 import { NULL_POSITION } from '../source/index.ts';
 import {
+  addToSplitSum,
   binCountsSorted,
   boundCategories,
+  meanOfSplitSum,
   distinctCountSorted,
   isFlatList,
   listAggregate,
@@ -16,6 +18,7 @@ import {
   ruleViolated,
   type BinSpec,
   type QualityCounts,
+  type SplitSum,
 } from '../stats/index.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
 
@@ -139,12 +142,13 @@ export function numericProfile(
 
   const finite = new Float64Array(quality.finite);
   let k = 0;
-  let sum = 0;
+  // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
+  const sum: SplitSum = { small: 0, largeScaled: 0 };
   for (let i = 0; i < values.length; i++) {
     const v = values[i]!;
     if (Number.isFinite(v)) {
       finite[k++] = v;
-      sum += v;
+      addToSplitSum(sum, v);
     }
   }
   const sorted = radixSortedCopy(finite);
@@ -177,7 +181,7 @@ export function numericProfile(
     binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
     sortedSample: sorted,
     distinct: distinctCountSorted(sorted),
-    mean: k > 0 ? sum / k : null,
+    mean: k > 0 ? meanOfSplitSum(sum, k) : null,
     withinList,
   };
 }

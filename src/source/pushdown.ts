@@ -30,7 +30,7 @@ import { featureSource, type Config, type FeatureConfig } from '../config/index.
 import { quoteIdent, type PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
-import { boundCategories, emptyQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { LARGE_MAGNITUDE, LARGE_SCALE_EXP, boundCategories, emptyQualityCounts, meanOfSplitSum, type BinSpec, type QualityCounts, type SplitSum } from '../stats/index.ts';
 import type { SourcePlan } from './plan.ts';
 
 /** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
@@ -56,7 +56,8 @@ export interface NumericAggregates {
   quality: QualityCounts;
   /** Counts of finite values per bin of the counting spec (fine bins when given, else the PSI bins); empty without a spec. */
   counts: number[];
-  sum: number;
+  /** Sum of the finite values, split so that it cannot overflow (stats/safesum.ts). */
+  sum: SplitSum;
   min: number | null;
   max: number | null;
 }
@@ -266,16 +267,20 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
       code = `(CASE WHEN count(${fs.value}) >= 2 THEN 1 + CASE WHEN min(${fs.value}) = max(${fs.value}) THEN 2 ELSE 0 END ELSE 0 END)`;
     } else {
       const fin = finite(fs.value);
+      // As stats/withinlist.ts: values of magnitude >= LARGE_MAGNITUDE are counted, not summed or squared (no overflow).
+      const small = `${fin} AND abs(${fs.value}) < ${lp.add(LARGE_MAGNITUDE, 'float8')}`;
       const a = {
         c: `count(*) FILTER (WHERE ${fin})`,
         n: `(count(*) FILTER (WHERE ${fin}))::float8`,
         mn: `min(${fs.value}) FILTER (WHERE ${fin})`,
         mx: `max(${fs.value}) FILTER (WHERE ${fin})`,
-        s: `sum(${fs.value}) FILTER (WHERE ${fin})`,
-        ss: `sum(${fs.value} * ${fs.value}) FILTER (WHERE ${fin})`,
+        s: `coalesce(sum(${fs.value}) FILTER (WHERE ${small}), 0)`,
+        ss: `coalesce(sum(${fs.value} * ${fs.value}) FILTER (WHERE ${small}), 0)`,
         d: `count(DISTINCT ${fs.value}) FILTER (WHERE ${fin})`,
       };
-      const rule = f.withinList === undefined ? 'false' : ruleSql(f.withinList.rule, a, lp.add(f.withinList.tolerance, 'float8'));
+      const large = `count(*) FILTER (WHERE ${fin} AND NOT (${small}))`;
+      // A non-flat list holding a large value breaks every rule (see ruleViolated).
+      const rule = f.withinList === undefined ? 'false' : `(${large} > 0 OR ${ruleSql(f.withinList.rule, a, lp.add(f.withinList.tolerance, 'float8'))})`;
       code = `(CASE WHEN ${a.c} >= 2 THEN 1 + CASE WHEN ${a.mn} = ${a.mx} THEN 2 WHEN ${rule} THEN 4 ELSE 0 END ELSE 0 END)`;
     }
     inner.push(`${code} AS w${i}`);
@@ -321,7 +326,12 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) AS s, min(v.x) AS lo, max(v.x) AS hi
+  // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+  const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
+  const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE abs(v.x) < ${largeAt}) AS s,
+       sum(v.x * ${scale}) FILTER (WHERE abs(v.x) >= ${largeAt} AND v.x > '-Infinity'::float8 AND v.x < 'Infinity'::float8) AS sl,
+       min(v.x) AS lo, max(v.x) AS hi
   FROM ${plan.relation}
        CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
  WHERE ${plan.dateColumn} = ${vDate}
@@ -381,7 +391,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
   });
 
-  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
   const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range)]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
@@ -389,7 +399,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: new Map() };
     else {
       const spec = countingSpec(specs, f.name);
-      numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
+      numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: { small: 0, largeScaled: 0 }, min: null, max: null };
     }
   }
   for (const r of valueRes.rows) {
@@ -418,7 +428,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       q.finite += n;
       if (d.outOfRange) q.outOfRange += n;
       if (a.counts.length > 0) a.counts[d.bin]! += n;
-      a.sum += r.s ?? 0;
+      a.sum.small += r.s ?? 0;
+      a.sum.largeScaled += r.sl ?? 0;
       if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
       if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
@@ -473,7 +484,7 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
       binCounts,
       sortedSample,
       distinct,
-      mean: a.quality.finite > 0 ? a.sum / a.quality.finite : null,
+      mean: a.quality.finite > 0 ? meanOfSplitSum(a.sum, a.quality.finite) : null,
       withinList: f.scope === 'item' ? agg.withinList[f.name]! : null,
     };
     if (fine !== undefined) profile.fineBinCounts = a.counts;

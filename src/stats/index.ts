@@ -28,3 +28,5 @@ export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViola
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
 export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCategory } from './categorical.ts';
 export type { CategoryCounts } from './categorical.ts';
+export { LARGE_MAGNITUDE, LARGE_SCALE_EXP, addToSplitSum, meanOfSplitSum } from './safesum.ts';
+export type { SplitSum } from './safesum.ts';
