@@ -404,11 +404,13 @@ function categoryLabel(c: string): string {
 function comparableCategories(base: CategoricalProfile, cur: CategoricalProfile): [Map<string, number>, Map<string, number>] {
   const b = new Map(base.categories);
   const c = new Map<string, number>();
-  const folded = b.has(OTHER_CATEGORY);
+  const folded = base.otherRows > 0;
   for (const [k, v] of cur.categories) {
     const key = folded && !b.has(k) ? OTHER_CATEGORY : k;
     c.set(key, (c.get(key) ?? 0) + v);
   }
+  if (folded) b.set(OTHER_CATEGORY, base.otherRows);
+  if (cur.otherRows > 0) c.set(OTHER_CATEGORY, (c.get(OTHER_CATEGORY) ?? 0) + cur.otherRows);
   if (base.quality.nulls > 0) b.set(NULL_CATEGORY, base.quality.nulls);
   if (cur.quality.nulls > 0) c.set(NULL_CATEGORY, cur.quality.nulls);
   return [b, c];
@@ -424,7 +426,7 @@ function cardinalityFinding(ctx: Context, f: FeatureConfig, base: CategoricalPro
   const score = cur.distinct / Math.max(1, base.distinct);
   const status = statusAbove(score, t);
   const kept = ctx.config.source.maxCategories;
-  const other = cur.categories.get(OTHER_CATEGORY) ?? 0;
+  const other = cur.otherRows;
   return {
     feature: f.name,
     check: 'category_cardinality',

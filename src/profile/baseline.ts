@@ -133,18 +133,21 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       let quality: QualityCounts | null = null;
       let withinList: WithinListCounts | null = null;
       let distinct = 0;
+      let other = 0;
       for (const p of cats) {
         for (const [k, v] of p.categories) merged.set(k, (merged.get(k) ?? 0) + v);
+        other += p.otherRows;
         quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
         withinList = addWithinList(withinList, p.withinList);
         distinct = Math.max(distinct, p.distinct);
       }
       // Bounded like a day: the heavy hitters of the window, the rest as one bucket.
-      const categories = boundCategories(merged, config.source.maxCategories);
+      const bounded = boundCategories(merged, config.source.maxCategories, other);
       features[f.name] = {
         kind: 'categorical',
         quality: quality ?? emptyQualityCounts(),
-        categories,
+        categories: bounded.kept,
+        otherRows: bounded.other,
         // The union of the days' categories is not known once each day is bounded: the largest daily count stands for it.
         distinct,
         withinList,

@@ -215,7 +215,7 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
   col.dictionary.forEach((name, c) => {
     if (counts[c]! > 0) all.set(name, counts[c]!);
   });
-  const categories = boundCategories(all, maxCategories);
+  const { kept: categories, other: otherRows } = boundCategories(all, maxCategories);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -241,7 +241,7 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
     withinList = { listsJudged, flatLists, ruleViolations: 0 };
   }
   const quality: QualityCounts = { rows: cols.rows, nulls, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: cols.rows - nulls };
-  return { kind: 'categorical', quality, categories, distinct: all.size, withinList };
+  return { kind: 'categorical', quality, categories, otherRows, distinct: all.size, withinList };
 }
 
 /**

@@ -40,9 +40,11 @@ export interface CategoricalProfile {
   /**
    * Rows per category (nulls are in quality.nulls). A Map, not an object: category values are
    * data, and `constructor` or `__proto__` must be keys like any other. At most
-   * source.maxCategories entries, the most frequent, plus OTHER_CATEGORY for the rest.
+   * source.maxCategories entries, the most frequent; the rest are counted in otherRows.
    */
   categories: Map<string, number>;
+  /** Rows in categories beyond the kept ones. */
+  otherRows: number;
   /**
    * Distinct categories (after truncation to source.maxCategoryLength): of the day, or for a
    * baseline the largest daily count among its days.

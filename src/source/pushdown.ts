@@ -268,7 +268,8 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     } else {
       const fin = finite(fs.value);
       // As stats/withinlist.ts: values of magnitude >= LARGE_MAGNITUDE are counted, not summed or squared (no overflow).
-      const small = `${fin} AND abs(${fs.value}) < ${lp.add(LARGE_MAGNITUDE, 'float8')}`;
+      // (A literal, not a parameter: a parameter the statement ends up not using has no type.)
+      const small = `${fin} AND abs(${fs.value}) < ${LARGE_MAGNITUDE.toExponential()}::float8`;
       const a = {
         c: `count(*) FILTER (WHERE ${fin})`,
         n: `(count(*) FILTER (WHERE ${fin}))::float8`,
@@ -451,8 +452,8 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
     if (f.kind === 'categorical') {
       const c = agg.categorical[f.name]!;
       const quality: QualityCounts = { ...emptyQualityCounts(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
-      const categories = boundCategories(c.categories, config.source.maxCategories);
-      const profile: CategoricalProfile = { kind: 'categorical', quality, categories, distinct: c.categories.size, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
+      const { kept: categories, other: otherRows } = boundCategories(c.categories, config.source.maxCategories);
+      const profile: CategoricalProfile = { kind: 'categorical', quality, categories, otherRows, distinct: c.categories.size, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
       features[f.name] = profile;
       continue;
     }

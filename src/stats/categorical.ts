@@ -6,9 +6,9 @@ import { psi } from './psi.ts';
 import type { PsiResult } from './psi.ts';
 
 /**
- * Key of the bucket holding every category beyond the kept ones, and of the missing values
- * where a comparison counts them as a bin. PostgreSQL text cannot contain NUL, so no category
- * read from the source can be either.
+ * Keys for the bucket of the categories beyond the kept ones, and for missing values, in a
+ * comparison built in memory (never stored: jsonb cannot hold NUL either). PostgreSQL text
+ * cannot contain NUL, so no category read from the source can equal them.
  */
 export const OTHER_CATEGORY = '\u0000other';
 export const NULL_CATEGORY = '\u0000null';
@@ -100,27 +100,23 @@ export function truncateCategory(value: string, maxLength: number): string {
 }
 
 /**
- * The `limit` most frequent categories (ties by name, code-unit order) and one OTHER_CATEGORY
- * entry with the rows of all the others (an OTHER_CATEGORY already in `counts` adds to it).
- * Returns `counts` itself when nothing needs folding.
+ * The `limit` most frequent categories (ties by name, code-unit order), and the rows of all the
+ * others added to `other` (the rows already outside the kept categories, 0 by default).
  *
  * Why: the number of distinct values of a categorical feature is set by the data, not by the
  * config; a profile kept for months must not grow with it. The heavy hitters carry nearly all
  * of a PSI; the tail is compared as one bucket.
  *
  * Cost: O(k log k) for k categories. Example: boundCategories(new Map([['a', 5], ['b', 3], ['c', 1]]), 1)
- *   => Map { 'a' => 5, OTHER_CATEGORY => 4 }
+ *   => { kept: Map { 'a' => 5 }, other: 4 }
  *
  * Source: definition of this unit (a top-k summary with a remainder bucket).
  */
-export function boundCategories(counts: CategoryCounts, limit: number): Map<string, number> {
+export function boundCategories(counts: CategoryCounts, limit: number, other = 0): { kept: Map<string, number>; other: number } {
   if (!(Number.isInteger(limit) && limit >= 1)) throw new StatsInputError(`boundCategories requires a limit that is an integer >= 1; got ${String(limit)}`);
-  const named = [...counts].filter(([k]) => k !== OTHER_CATEGORY);
-  if (named.length <= limit) return new Map(counts);
-  named.sort((x, y) => y[1] - x[1] || byName(x[0], y[0]));
-  const out = new Map(named.slice(0, limit));
-  let other = counts.get(OTHER_CATEGORY) ?? 0;
-  for (let i = limit; i < named.length; i++) other += named[i]![1];
-  out.set(OTHER_CATEGORY, other);
-  return out;
+  if (counts.size <= limit) return { kept: new Map(counts), other };
+  const named = [...counts].sort((x, y) => y[1] - x[1] || byName(x[0], y[0]));
+  let rest = other;
+  for (let i = limit; i < named.length; i++) rest += named[i]![1];
+  return { kept: new Map(named.slice(0, limit)), other: rest };
 }

@@ -603,6 +603,7 @@ function storeSuite(target: Target): void {
             ['constructor', 4],
             ['toString', 1],
           ]),
+          otherRows: 5,
           distinct: 6,
           withinList: null,
         },

@@ -36,7 +36,7 @@ function numericDay(sample: Float64Array, finite: number, nulls: number, withinL
 
 function categoricalDay(categories: Record<string, number>): CategoricalProfile {
   const rows = Object.values(categories).reduce((a, b) => a + b, 0);
-  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories: new Map(Object.entries(categories)), distinct: Object.keys(categories).length, withinList: null };
+  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories: new Map(Object.entries(categories)), otherRows: 0, distinct: Object.keys(categories).length, withinList: null };
 }
 
 // Day A: 3000 finite values in [0, 1); day B: 1000 finite values in [10, 11).

@@ -140,6 +140,7 @@ describe('buildDayProfile on three lists', () => {
       kind: 'categorical',
       quality: { rows: 10, nulls: 1, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 9 },
       categories: new Map([['piano', 7], ['harp', 1], ['violin', 1]]),
+      otherRows: 0,
       distinct: 3,
       withinList: { listsJudged: 2, flatLists: 1, ruleViolations: 0 },
     });

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { OTHER_CATEGORY, StatsInputError, boundCategories, categoryPsi, psi, truncateCategory } from '../../../src/stats/index.ts';
+import { StatsInputError, boundCategories, categoryPsi, psi, truncateCategory } from '../../../src/stats/index.ts';
 
 describe('categoryPsi', () => {
   it('doc example: union of categories, unseen ones last, unseen share of current rows', () => {
@@ -75,23 +75,23 @@ describe('truncateCategory', () => {
 });
 
 describe('boundCategories', () => {
-  it('keeps the most frequent (ties by name) and folds the rest into OTHER_CATEGORY', () => {
+  it('keeps the most frequent (ties by name) and counts the rest as other rows', () => {
     const counts = new Map([
       ['b', 3],
       ['a', 3],
       ['c', 5],
       ['d', 1],
     ]);
-    expect(boundCategories(counts, 2)).toEqual(
-      new Map([
+    expect(boundCategories(counts, 2)).toEqual({
+      kept: new Map([
         ['c', 5],
         ['a', 3],
-        [OTHER_CATEGORY, 4],
       ]),
-    );
-    expect(boundCategories(counts, 4)).toEqual(counts);
-    // An existing other bucket adds up.
-    expect(boundCategories(new Map([['x', 9], ['y', 2], [OTHER_CATEGORY, 7]]), 1)).toEqual(new Map([['x', 9], [OTHER_CATEGORY, 9]]));
+      other: 4,
+    });
+    expect(boundCategories(counts, 4)).toEqual({ kept: counts, other: 0 });
+    // Rows already outside the kept categories add up.
+    expect(boundCategories(new Map([['x', 9], ['y', 2]]), 1, 7)).toEqual({ kept: new Map([['x', 9]]), other: 9 });
     expect(() => boundCategories(counts, 0)).toThrow(/limit that is an integer >= 1/);
   });
 });
