@@ -45,7 +45,7 @@ const JSONB_SCENARIO: ScenarioOptions = {
 const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
 const QUALITY = ['null_ratio', 'nonfinite_ratio', 'type_error_ratio', 'out_of_range_ratio'];
 const WITHIN_LIST = ['flat_list_ratio', 'rule_violation_ratio'];
-const DATASET = ['row_count_ratio', 'list_count_ratio', 'list_size_psi', 'duplicate_item_ratio', 'position_gap_ratio', 'null_list_id_ratio', 'singleton_list_ratio', 'label_positive_ratio', 'no_positive_list_ratio'];
+const DATASET = ['row_count_ratio', 'list_count_ratio', 'list_size_psi', 'duplicate_item_ratio', 'position_gap_ratio', 'null_list_id_ratio', 'null_item_id_ratio', 'singleton_list_ratio', 'label_positive_ratio', 'no_positive_list_ratio', 'null_label_ratio'];
 
 const key = (f: Finding): string => `${f.feature ?? 'dataset'} ${f.check}${f.rule === null ? '' : ` ${f.rule}`}`;
 
@@ -93,7 +93,7 @@ function expectAgreement(stream: Report, pushdown: Report): number {
       expect(sf.value, k).toBeLessThanOrEqual(pf.value + bound + 1e-12);
       expect(pf.evidence['m'], k).toBe(sf.evidence['m']);
       expect(pf.summary, k).toContain('fine bins');
-    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop') {
+    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'category_cardinality' || sf.check === 'distinct_ratio_drop') {
       expect(pf.value, k).toBe(sf.value);
       expect(pf.status, k).toBe(sf.status);
       expect(pf.evidence, k).toEqual(sf.evidence);
