@@ -115,6 +115,9 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     const before = await rt.store.reportFor(date);
     expect(before).not.toBeNull();
     const statsBefore = await rt.store.runStats();
+    const kept = async (): Promise<string[]> =>
+      (await admin.query<{ n: string }>(`SELECT (SELECT count(*) FROM "${storeSchema}".day_profiles)::text || ' ' || (SELECT count(*) FROM "${storeSchema}".baselines)::text AS n`)).rows.map((r) => r.n);
+    const keptBefore = await kept();
     // A view that pauses before its rows, so the read is surely in flight when it is killed.
     const slow = `${sourceSchema}.slow_impressions`;
     await admin.query(`CREATE VIEW ${slow} AS SELECT i.* FROM ${table} i CROSS JOIN (SELECT pg_sleep(2)) AS pause`);
@@ -136,6 +139,8 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     const statsAfter = await rt.store.runStats();
     expect(statsAfter.failures).toBe(statsBefore.failures + 1);
     expect(statsAfter.successes).toBe(statsBefore.successes);
+    // No day profile or baseline of the failed run (they are saved with its report, in one transaction).
+    expect(await kept()).toEqual(keptBefore);
   });
 
   it('names the missing column and its config path', async () => {
