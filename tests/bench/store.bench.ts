@@ -95,6 +95,7 @@ export async function main(): Promise<void> {
     );
     console.log(`store.bench: retention policy of the pruned store: ${JSON.stringify(policy)}`);
 
+    const benchStart = new Date();
     const rt = openRuntime(config(arms[0]!.schema, false), silentLogger, { PLUMBLINE_SOURCE_URL: url });
     const history: { day: number; bytes: Record<string, number>[] }[] = [];
     try {
@@ -145,6 +146,15 @@ export async function main(): Promise<void> {
       return `${mb(end).padStart(14)} MB ${mb((end - total(firstDay.bytes[k]!)) / (last.day - 1)).padStart(9)} MB ${mb((end - total(mid.bytes[k]!)) / (last.day - mid.day)).padStart(9)} MB`;
     });
     console.log(`${'total'.padEnd(18)} ${cells.join('   ')}`);
+    // VACUUM cannot free rows that a transaction older than the delete may still see: a
+    // session of another program on the same database would make both stores look alike.
+    const holders = await client.query<{ n: string }>(
+      `SELECT count(*)::text AS n FROM pg_stat_activity WHERE datname = current_database() AND backend_xmin IS NOT NULL AND xact_start < $1 AND pid <> pg_backend_pid()`,
+      [benchStart],
+    );
+    if (Number(holders.rows[0]!.n) > 0) {
+      console.log(`store.bench: WARNING: ${holders.rows[0]!.n} transaction(s) older than this benchmark held back VACUUM; the sizes include dead rows, run it again on a quiet server`);
+    }
     console.log('');
     console.log(
       `scaling: a baseline's samples are ${FEATURES} features x sampleSize x 8 bytes raw (${mb(FEATURES * sampleSize * 8)} MB here, ` +
