@@ -155,13 +155,14 @@ export class Store {
   /**
    * Records a successful run in one transaction: the run row with its report, the
    * date's findings replaced whole, and the alert state when runDate is the newest
-   * evaluated date (a back-fill of an older date leaves the alert state alone).
+   * evaluated date (a back-fill of an older date leaves the alert state alone); with
+   * `artefacts`, the day profiles and baseline the run computed as well.
    */
   async saveRun(report: Report, artefacts?: RunArtefacts): Promise<void> {
     checkDate(report.runDate, 'report.runDate');
     const duration = durationSeconds(report.startedAt, report.finishedAt);
     const f = report.findings;
-    const baseline = artefacts?.baseline != null ? encodeBaseline(artefacts.baseline) : null;
+    const baseline = artefacts !== undefined && artefacts.baseline !== null ? encodeBaseline(artefacts.baseline) : null;
     await wrapped(`saving the run of ${report.runDate} failed`, () =>
       withTransaction(this.pool, async (client) => {
         // Serialise writers of this store, so "is this the newest date?" cannot race.
