@@ -7,7 +7,8 @@
  *
  *   PLUMBLINE_BENCH_DATABASE_URL=postgres://postgres@127.0.0.1:5432/test npx tsx tests/bench/store.bench.ts
  *
- * (falls back to PLUMBLINE_TEST_DATABASE_URL). Creates and drops its own schemas. Both stores
+ * (falls back to PLUMBLINE_TEST_DATABASE_URL). Creates and drops a database of its own (or, when
+ * the role may not create one, its own schemas in the given database). Both stores
  * get a plain VACUUM after each day, as autovacuum would in production, so space freed by
  * deletes is reused; without it the figures would depend on when autovacuum happened to run.
  * PLUMBLINE_BENCH_STORE_DAYS and PLUMBLINE_BENCH_STORE_SAMPLE change the days and sampleSize.
@@ -49,9 +50,33 @@ export async function main(): Promise<void> {
     console.log('store.bench: set PLUMBLINE_BENCH_DATABASE_URL (or PLUMBLINE_TEST_DATABASE_URL) to a PostgreSQL server; skipped');
     return;
   }
+  const suffix = Date.now().toString(36);
+  // A database of its own where the role may create one: VACUUM's horizon for ordinary tables
+  // is per database, so long transactions of other programs in other databases do not keep
+  // the pruned rows alive.
+  const name = `plumbline_store_bench_${suffix}`;
+  const admin = new pg.Client({ connectionString: url });
+  await admin.connect();
+  let own = false;
+  try {
+    await admin.query(`CREATE DATABASE ${name}`);
+    own = true;
+  } catch (err) {
+    console.log(`store.bench: cannot create a database of its own (${(err as Error).message}); running in the given one`);
+  }
+  try {
+    const target = new URL(url);
+    target.pathname = `/${name}`;
+    await measure(own ? target.toString() : url, suffix);
+  } finally {
+    if (own) await admin.query(`DROP DATABASE IF EXISTS ${name}`);
+    await admin.end();
+  }
+}
+
+async function measure(url: string, suffix: string): Promise<void> {
   const days = Number(process.env['PLUMBLINE_BENCH_STORE_DAYS'] ?? 90);
   const sampleSize = Number(process.env['PLUMBLINE_BENCH_STORE_SAMPLE'] ?? 10_000);
-  const suffix = Date.now().toString(36);
   const src = `bench_ssrc_${suffix}`;
   const table = `${src}.day_rows`;
   const client = new pg.Client({ connectionString: url });
