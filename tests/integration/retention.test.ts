@@ -14,7 +14,7 @@ import { silentLogger } from '../../src/log.ts';
 import type { Finding } from '../../src/report/index.ts';
 import { addDays, recordMissingSnapshot, runDay } from '../../src/run/index.ts';
 import { openRuntime, type Runtime } from '../../src/runtime.ts';
-import { dailyJob, retentionPolicy, type JobDeps } from '../../src/scheduler/index.ts';
+import { dailyJob, type JobDeps } from '../../src/scheduler/index.ts';
 import { migrate, Store } from '../../src/store/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
@@ -73,18 +73,6 @@ describe.skipIf(url === undefined)('store retention and run atomicity on a Postg
     await rt?.close();
     for (const s of [sourceSchema, ...schemas]) await admin?.query(`DROP SCHEMA IF EXISTS "${s}" CASCADE`);
     await admin?.end();
-  });
-
-  it('the policy keeps day profiles for the window span + lag + catch-up, at least dayProfileMinDays, and a fixed window always', () => {
-    const trailing = retentionPolicy(cfg({ dayProfileMinDays: 1 }))!;
-    // trailing 3 days + lagDays 1 + catchUpMaxDays 0
-    expect(trailing).toEqual({ reportDays: 400, dayProfileDays: 4, keepDayProfiles: null, baselinesKept: 3 });
-    expect(retentionPolicy(cfg({}))!.dayProfileDays).toBe(35);
-    const weekly = scenarioConfig(table, { storeSchema: 's', overrides: { baseline: { window: { type: 'same_weekday', weeks: 8 } }, schedule: { catchUpMaxDays: 7, lagDays: 2 } } });
-    expect(retentionPolicy(weekly)!.dayProfileDays).toBe(8 * 7 + 2 + 7);
-    const fixed = scenarioConfig(table, { storeSchema: 's', overrides: { baseline: { window: { type: 'fixed', from: '2024-01-01', to: '2024-01-31' } } } });
-    expect(retentionPolicy(fixed)!.keepDayProfiles).toEqual({ from: '2024-01-01', to: '2024-01-31' });
-    expect(retentionPolicy(cfg({ enabled: false }))).toBeNull();
   });
 
   it('prune deletes old runs, failures and findings, but never the two newest evaluated dates, nor the alert state', async () => {
