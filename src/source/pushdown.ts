@@ -39,6 +39,16 @@ export interface PushdownSpecs {
   bins: Record<string, BinSpec> | null;
   /** Fine bins per numeric feature, refining `bins` (every PSI bin is a union of fine bins). */
   fineBins: Record<string, BinSpec> | null;
+  /**
+   * The baseline's extreme-value bounds per numeric feature (checks/extremes.ts): the value
+   * pass counts the finite values strictly below `lower` and strictly above `upper`.
+   */
+  extremeBounds?: Record<string, ExtremeLimits> | null;
+}
+
+export interface ExtremeLimits {
+  lower: number;
+  upper: number;
 }
 
 export interface SqlStatement {
@@ -60,6 +70,8 @@ export interface NumericAggregates {
   sum: SplitSum;
   min: number | null;
   max: number | null;
+  /** Finite values beyond the extreme-value bounds, when the specs gave bounds for this feature. */
+  extreme?: { lower: number; upper: number; below: number; above: number };
 }
 
 export interface DayAggregates {
@@ -100,7 +112,8 @@ export function widthBucketThresholds(spec: BinSpec): number[] {
   return t;
 }
 
-export type DecodedValue = { kind: 'finite'; bin: number; outOfRange: boolean } | { kind: 'negInf' | 'posInf' | 'nan' };
+/** `beyond` (only with extreme-value bounds): -1 below the lower bound, 1 above the upper, 0 within. */
+export type DecodedValue = { kind: 'finite'; bin: number; outOfRange: boolean; beyond?: -1 | 0 | 1 } | { kind: 'negInf' | 'posInf' | 'nan' };
 
 /**
  * One `width_bucket` call per value and feature classifies it completely: the thresholds
@@ -115,27 +128,36 @@ export interface ValueCoding {
   decode(code: number): DecodedValue;
 }
 
-export function valueCoding(spec: BinSpec | undefined, range: { min?: number; max?: number } | undefined): ValueCoding {
+export function valueCoding(spec: BinSpec | undefined, range: { min?: number; max?: number } | undefined, extreme?: ExtremeLimits): ValueCoding {
   const binT = spec === undefined ? [] : widthBucketThresholds(spec);
   const cuts = new Set<number>(binT.filter((x) => Number.isFinite(x)));
   if (range?.min !== undefined && Number.isFinite(range.min)) cuts.add(range.min === 0 ? 0 : range.min);
   if (range?.max !== undefined && Number.isFinite(range.max) && Number.isFinite(nextUp(range.max))) cuts.add(nextUp(range.max));
+  // Extreme-value bounds cut like a range: below `lower`, and from the double after `upper`.
+  if (extreme !== undefined && Number.isFinite(extreme.lower) && extreme.lower > -Number.MAX_VALUE) cuts.add(extreme.lower === 0 ? 0 : extreme.lower);
+  if (extreme !== undefined && Number.isFinite(extreme.upper) && extreme.upper < Number.MAX_VALUE) cuts.add(nextUp(extreme.upper));
   const u = [...cuts].sort((a, b) => a - b);
   const thresholds = [-Number.MAX_VALUE, ...u, Number.POSITIVE_INFINITY, Number.NaN];
   // Finite bucket j holds the doubles in [thresholds[j - 1], thresholds[j]); its first one decides.
   const finiteBuckets = u.length + 1;
   const bins = new Int32Array(finiteBuckets + 1);
   const oor = new Uint8Array(finiteBuckets + 1);
+  const beyond = new Int8Array(finiteBuckets + 1);
   for (let j = 1; j <= finiteBuckets; j++) {
     const first = thresholds[j - 1]!;
     bins[j] = countAtMost(binT, first);
     oor[j] = (range?.min !== undefined && first < range.min) || (range?.max !== undefined && first > range.max) ? 1 : 0;
+    if (extreme !== undefined) beyond[j] = first < extreme.lower ? -1 : first > extreme.upper ? 1 : 0;
   }
   return {
     thresholds,
     decode(code: number): DecodedValue {
       if (code === 0) return { kind: 'negInf' };
-      if (code <= finiteBuckets) return { kind: 'finite', bin: bins[code]!, outOfRange: oor[code] === 1 };
+      if (code <= finiteBuckets) {
+        const v: DecodedValue = { kind: 'finite', bin: bins[code]!, outOfRange: oor[code] === 1 };
+        if (extreme !== undefined) v.beyond = beyond[code] as -1 | 0 | 1;
+        return v;
+      }
       return code === finiteBuckets + 1 ? { kind: 'posInf' } : { kind: 'nan' };
     },
   };
@@ -319,7 +341,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
       return;
     }
     const v = fs.value;
-    const coding = valueCoding(countingSpec(specs, f.name), f.range);
+    const coding = valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name]);
     const bucket = `width_bucket(${v}, ${vp.add(coding.thresholds, 'float8[]')})`;
     // NULL is a null; a jsonb type error is told apart only then (COALESCE evaluates lazily).
     codes.push(fs.typeError === null ? bucket : `coalesce(${bucket}, CASE WHEN ${fs.typeError} THEN ${CODE_TYPE_ERROR} END)`);
@@ -393,7 +415,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
   });
 
   const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
-  const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range)]));
+  const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name])]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
   for (const f of config.features) {
@@ -401,6 +423,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     else {
       const spec = countingSpec(specs, f.name);
       numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: { small: 0, largeScaled: 0 }, min: null, max: null };
+      const bounds = specs.extremeBounds?.[f.name];
+      if (bounds !== undefined) numeric[f.name]!.extreme = { lower: bounds.lower, upper: bounds.upper, below: 0, above: 0 };
     }
   }
   for (const r of valueRes.rows) {
@@ -431,6 +455,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       if (a.counts.length > 0) a.counts[d.bin]! += n;
       a.sum.small += r.s ?? 0;
       a.sum.largeScaled += r.sl ?? 0;
+      if (a.extreme !== undefined && d.beyond === -1) a.extreme.below += n;
+      if (a.extreme !== undefined && d.beyond === 1) a.extreme.above += n;
       if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
       if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
@@ -489,6 +515,7 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
       withinList: f.scope === 'item' ? agg.withinList[f.name]! : null,
     };
     if (fine !== undefined) profile.fineBinCounts = a.counts;
+    if (a.extreme !== undefined) profile.extremeCounts = { ...a.extreme, min: a.min, max: a.max };
     features[f.name] = profile;
   }
   return {

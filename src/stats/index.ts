@@ -30,3 +30,5 @@ export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCa
 export type { CategoryCounts } from './categorical.ts';
 export { LARGE_MAGNITUDE, LARGE_SCALE_EXP, addToSplitSum, meanOfSplitSum } from './safesum.ts';
 export type { SplitSum } from './safesum.ts';
+export { countBeyondSorted, extremeBoundsSorted } from './extremes.ts';
+export type { ExtremeBounds, ExtremeBoundsOptions } from './extremes.ts';
