@@ -16,7 +16,7 @@ import type { Config } from '../../src/config/index.ts';
 import { fineBinsFromSorted } from '../../src/profile/index.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
 import { planSource, readDayAggregates, refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
-import { assignBin, binEdgesFromSorted, type BinSpec } from '../../src/stats/index.ts';
+import { assignBin, binEdgesFromSorted, meanOfSplitSum, type BinSpec } from '../../src/stats/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { BASELINE_DAYS, FAULTS, SCENARIO } from '../support/fault-days.ts';
 import { runDays } from '../support/run-days.ts';
@@ -169,8 +169,15 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
       expect(a.extreme).toEqual({ lower: -1, upper: 1000, below: Number(t.below), above: Number(t.above) });
       expect([a.min, a.max]).toEqual([t.lo, t.hi]);
       expect(a.max).toBe(1e308);
-      // The float8 sum of the day would overflow (SQLSTATE 22003); the numeric part keeps the mean defined, here +Infinity as in JavaScript.
-      expect(a.sum).toBe(Number.POSITIVE_INFINITY);
+      // The float8 sum of the day would overflow (SQLSTATE 22003); the split sum keeps it, and the
+      // mean, finite: the mean equals PostgreSQL's exact numeric avg over the finite values.
+      const exact = await admin.query<{ mean: string }>(
+        `SELECT avg(review_count::numeric)::text AS mean FROM ${table} WHERE snapshot_date = $1::date AND review_count > '-Infinity'::float8 AND review_count < 'Infinity'::float8`,
+        [overflow],
+      );
+      const mean = meanOfSplitSum(a.sum, a.quality.finite);
+      expect(Number.isFinite(mean)).toBe(true);
+      expect(mean / Number(exact.rows[0]!.mean)).toBeCloseTo(1, 12);
       // A feature without bounds counts nothing beyond.
       expect(agg.numeric['price']!.extreme).toBeUndefined();
     } finally {
