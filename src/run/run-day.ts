@@ -2,9 +2,9 @@
  * One day end to end: source -> profiles -> checks -> store. A plain async function of its
  * dependencies and a date; it knows nothing of schedules, HTTP or the command line.
  *
- * Nothing is half-written: the day's findings, its alert state and its run record are
- * saved in one store transaction at the end; a failure before that leaves every stored
- * result as it was and records only a failed run.
+ * Nothing is half-written: the day's findings, its alert state, its run record, and the day
+ * profiles and baseline it computed are saved in one store transaction at the end; a
+ * failure before that leaves every stored result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
 import { applyAlertState, baselineExtremeBounds, evaluateSlices, snapshotMissingFinding, type FindingDraft } from '../checks/index.ts';
@@ -51,13 +51,23 @@ import { baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
 export interface RunStore {
-  saveRun(report: Report): Promise<void>;
+  /** The report, and what the run computed for later runs, in one transaction. */
+  saveRun(
+    report: Report,
+    artefacts?: {
+      profileFingerprint: string;
+      dayProfiles: readonly DayProfile[];
+      baseline: BaselineProfile | null;
+      /** Day profiles under fingerprints of their own: slices, and the days of a baseline relation. */
+      moreDayProfiles?: readonly { fingerprint: string; profile: DayProfile }[];
+      /** More baselines computed by the run: the slices'. */
+      moreBaselines?: readonly BaselineProfile[];
+    },
+  ): Promise<void>;
   recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string }): Promise<void>;
   previousFindings(beforeDate: string): Promise<{ runDate: string; findings: Finding[] } | null>;
   loadBaseline(fingerprint: string): Promise<BaselineProfile | null>;
-  saveBaseline(profile: BaselineProfile): Promise<void>;
   loadDayProfiles(fingerprint: string, dates: readonly string[]): Promise<Map<string, DayProfile>>;
-  saveDayProfile(fingerprint: string, profile: DayProfile): Promise<void>;
 }
 
 export interface RunDeps {
@@ -83,7 +93,8 @@ export function configFingerprint(config: Config): string {
 /** Everything that changes a day's profile (not thresholds: those apply later). */
 export function profileFingerprint(config: Config): string {
   return sha256({
-    v: 1,
+    // 2: category counts stored as Maps, bounded and cut (source.maxCategories, maxCategoryLength).
+    v: 2,
     source: config.source,
     features: config.features.map(({ thresholds: _t, ...f }) => f),
     sampleSize: config.baseline.sampleSize,
@@ -152,7 +163,7 @@ async function readProfile(
 ): Promise<DayProfile> {
   if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null, extremeBounds }, sliceSpecs);
   const t0 = performance.now();
-  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
+  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength }));
   const t1 = performance.now();
   // Slices first: profiling the whole day consumes the columns.
   // One pool of workers for the slices and the day: starting a worker costs more than a small slice.
@@ -191,7 +202,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
       defs = planSlices(config, await tallySegmentsSql(client, config, plan, date, agg.dataset.rows));
       for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
     }
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength });
     return { agg, cols, defs, sliceAggs };
   });
   const t1 = performance.now();
@@ -206,27 +217,34 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   return hasSlices(config) ? { ...profile, slices } : profile;
 }
 
-/** Stores a day's profile for later baselines: the whole day (naming its slices), then each slice apart. */
-async function saveDayProfile(deps: RunDeps, profileFp: string, day: DayProfile): Promise<void> {
-  const { slices, ...whole } = day;
-  const stored: DayProfile = slices === undefined ? whole : { ...whole, sliceNames: slices.map((s) => s.slice) };
-  for (const s of slices ?? []) await deps.store.saveDayProfile(sliceFingerprint(profileFp, s.slice), capDayProfile(s.profile, sliceDayCap(deps.config)));
-  await deps.store.saveDayProfile(profileFp, capDayProfile(stored, daySampleCap(deps.config)));
+/**
+ * What a day's profile adds to the store: the whole day (naming its slices, capped) under
+ * `profileFp`, and each slice apart under `<profileFp>/<slice>`.
+ */
+function dayArtefacts(config: Config, profileFp: string, day: DayProfile): { whole: DayProfile; slices: { fingerprint: string; profile: DayProfile }[] } {
+  const { slices, ...rest } = day;
+  const whole = capDayProfile(slices === undefined ? rest : { ...rest, sliceNames: slices.map((s) => s.slice) }, daySampleCap(config));
+  return { whole, slices: (slices ?? []).map((s) => ({ fingerprint: sliceFingerprint(profileFp, s.slice), profile: capDayProfile(s.profile, sliceDayCap(config)) })) };
 }
 
-/** The whole day's baseline and each slice's. */
-interface Baselines {
-  whole: BaselineProfile;
+/** A run's baselines, and what it computed to get them (to be saved with the run). */
+interface BaselineResult {
+  baseline: BaselineProfile;
+  /** Each slice's baseline. */
   slices: Map<string, BaselineProfile>;
+  /** True when the baselines were merged by this run (not loaded from the store). */
+  fresh: boolean;
+  /** Baseline days profiled from the source by this run, with the fingerprint each is stored under (slices apart). */
+  newDays: { fingerprint: string; profile: DayProfile }[];
 }
 
 /**
  * Loads the baseline from the store, or builds it from stored day profiles and the source:
  * the days of the window in the snapshot table, or the dates of the baseline relation
  * (baseline.source, e.g. the training set). Each slice's baseline is merged from the same
- * days' profiles of that slice and stored under its own fingerprint.
+ * days' profiles of that slice. Writes nothing: the caller saves what was computed with the run.
  */
-async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<Baselines> {
+async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineResult> {
   const { config, store, log } = deps;
   const relation = config.baseline.source;
   let basePlan = plan;
@@ -255,11 +273,13 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
       const b = await store.loadBaseline(sliceFingerprint(fingerprint, name));
       if (b !== null) slices.set(name, b);
     }
-    if (slices.size === (cached.slices ?? []).length) return { whole: cached, slices };
+    // A slice baseline may have been pruned (retention): then all are merged again.
+    if (slices.size === (cached.slices ?? []).length) return { baseline: cached, slices, fresh: false, newDays: [] };
   }
 
   const stored = await store.loadDayProfiles(profileFp, dates);
   const days: DayProfile[] = [];
+  const newDays: BaselineResult['newDays'] = [];
   // Slice profiles of days profiled now (the others are in the store).
   const fresh = new Map<string, Map<string, DayProfile>>();
   for (const date of dates) {
@@ -267,11 +287,10 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
     let day = stored.get(date);
     if (day === undefined || day.totalRows !== rows.get(date)) {
       log.info('profiling baseline day', { date, ...(relation !== undefined ? { relation: relation.table } : {}) });
-      const read = await readProfile(deps, basePlan, date, null);
-      await saveDayProfile(deps, profileFp, read);
-      fresh.set(date, new Map((read.slices ?? []).map((s) => [s.slice, s.profile])));
-      day = { ...read, sliceNames: (read.slices ?? []).map((s) => s.slice) };
-      delete day.slices;
+      const a = dayArtefacts(config, profileFp, await readProfile(deps, basePlan, date, null));
+      newDays.push({ fingerprint: profileFp, profile: a.whole }, ...a.slices);
+      fresh.set(date, new Map(a.slices.map((x) => [x.fingerprint.slice(profileFp.length + 1), x.profile])));
+      day = a.whole;
     }
     days.push(day);
   }
@@ -290,15 +309,11 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
       const withSlice = days.filter((d) => d.sliceNames?.includes(name)).map((d) => d.date);
       const fromStore = await store.loadDayProfiles(sliceFingerprint(profileFp, name), withSlice.filter((d) => !fresh.get(d)?.has(name)));
       const sliceDays = withSlice.map((d) => fresh.get(d)?.get(name) ?? fromStore.get(d)).filter((p): p is DayProfile => p !== undefined);
-      const b = mergeBaseline(sliceDays, sliceConfig(config), { fingerprint: sliceFingerprint(fingerprint, name), window, createdAt });
-      await store.saveBaseline(b);
-      sliceBaselines.set(name, b);
+      sliceBaselines.set(name, mergeBaseline(sliceDays, sliceConfig(config), { fingerprint: sliceFingerprint(fingerprint, name), window, createdAt }));
     }
     baseline.slices = names;
   }
-  // The whole baseline last: a cached one has every slice baseline stored.
-  await store.saveBaseline(baseline);
-  return { whole: baseline, slices: sliceBaselines };
+  return { baseline, slices: sliceBaselines, fresh: true, newDays };
 }
 
 /** The baseline's extreme-value bounds per numeric feature, which the pushdown engine counts against. */
@@ -333,20 +348,22 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
       return p;
     });
     const tBaseline = performance.now();
-    const stored = await ensureBaseline(deps, plan, runDate);
+    const built = await ensureBaseline(deps, plan, runDate);
     // The pushdown engine counts the day into fine bins too (a stored baseline may predate them).
     const fine = (b: BaselineProfile): BaselineProfile => (deps.config.source.engine === 'pushdown' ? withFineBins(b) : b);
-    const baseline = fine(stored.whole);
-    const sliceBaselines = new Map([...stored.slices].map(([name, b]) => [name, fine(b)]));
+    const baseline = fine(built.baseline);
+    const sliceBaselines = new Map([...built.slices].map(([name, b]) => [name, fine(b)]));
     deps.log.debug('baseline ready', { runDate, slices: sliceBaselines.size, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
     const pushdown = deps.config.source.engine === 'pushdown';
     const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, pushdown ? extremeBoundsOf(deps.config, baseline) : null, sliceBaselines);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
-    const tSave = performance.now();
-    await saveDayProfile(deps, profileFingerprint(deps.config), current);
-    deps.log.debug('day profile stored', { runDate, seconds: (performance.now() - tSave) / 1000 });
+    const profileFp = profileFingerprint(deps.config);
+    const today = dayArtefacts(deps.config, profileFp, current);
+    // Baseline days of the window go with the evaluated day; those of a baseline relation, and slices, under fingerprints of their own.
+    const dayProfiles = [...built.newDays.filter((d) => d.fingerprint === profileFp).map((d) => d.profile), today.whole];
+    const moreDayProfiles = [...built.newDays.filter((d) => d.fingerprint !== profileFp), ...today.slices];
 
     let drafts: FindingDraft[] = evaluateSlices(
       deps.config,
@@ -361,8 +378,14 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings, sliceBaselines);
     throwIfAborted(deps.signal);
     const tRun = performance.now();
-    await deps.store.saveRun(report);
-    deps.log.debug('run stored', { runDate, seconds: (performance.now() - tRun) / 1000 });
+    await deps.store.saveRun(report, {
+      profileFingerprint: profileFp,
+      dayProfiles,
+      baseline: built.fresh ? built.baseline : null,
+      moreDayProfiles,
+      moreBaselines: built.fresh ? [...built.slices.values()] : [],
+    });
+    deps.log.debug('run stored', { runDate, dayProfiles: dayProfiles.length, newBaseline: built.fresh, seconds: (performance.now() - tRun) / 1000 });
     const durationSeconds = (Date.parse(report.finishedAt) - started.getTime()) / 1000;
     deps.log.info('run completed', { runDate, status: report.status, findings: findings.length, durationSeconds });
     return { report, durationSeconds };
