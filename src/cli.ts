@@ -9,7 +9,7 @@ import { envSetting, loadConfigFile, maskUrl } from './config/index.ts';
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
 import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
 import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
-import { configFingerprint, dateRange, isIsoDate, runDay } from './run/index.ts';
+import { checkRunnableDates, configFingerprint, dateRange, isIsoDate, runDay, todayIn } from './run/index.ts';
 import { migrate } from './store/index.ts';
 import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
@@ -125,6 +125,8 @@ export async function main(argv: string[]): Promise<number> {
       const failOn = values['fail-on'];
       if (failOn !== undefined && failOn !== 'warn' && failOn !== 'critical') throw usageError(`--fail-on must be warn or critical, got ${JSON.stringify(failOn)}`);
       return withRuntime(values, rest, log, async (rt) => {
+        // A future date or one before the first snapshot would store a bogus "latest" verdict.
+        await checkRunnableDates({ config: rt.config, source: rt.source }, date, date, new Date());
         await migrate(rt.storePool, rt.config.store.schema);
         const { report } = await runDay({ config: rt.config, source: rt.source, store: rt.store, log }, date);
         print(report, values.format, values.all);
@@ -137,6 +139,7 @@ export async function main(argv: string[]): Promise<number> {
       const to = requireDate(values, 'to');
       if (from > to) throw usageError('--from must not be after --to');
       return withRuntime(values, rest, log, async (rt) => {
+        await checkRunnableDates({ config: rt.config, source: rt.source }, from, to, new Date());
         await migrate(rt.storePool, rt.config.store.schema);
         const dates = dateRange(from, to);
         const done = new Set(values.force === true ? [] : await rt.store.storedDates(from, to));
@@ -165,7 +168,7 @@ export async function main(argv: string[]): Promise<number> {
       const which = values.date ?? 'latest';
       if (which !== 'latest' && !isIsoDate(which)) throw usageError(`--date: ${JSON.stringify(which)} is not a date written YYYY-MM-DD (or latest)`);
       return withRuntime(values, rest, log, async (rt) => {
-        const report = which === 'latest' ? await rt.store.latestReport() : await rt.store.reportFor(which);
+        const report = which === 'latest' ? await rt.store.latestReport(todayIn(rt.config, new Date())) : await rt.store.reportFor(which);
         if (report === null) {
           process.stderr.write(`no stored run for ${which}\n`);
           return EXIT.failOn;
@@ -177,7 +180,7 @@ export async function main(argv: string[]): Promise<number> {
     case 'serve': {
       const { serve } = await import('./scheduler/index.ts');
       const config = loadConfigFile(configPath(values, rest));
-      return serve({ config, log, openRuntime });
+      return serve({ config, log, openRuntime, unhandledRejections: installRejectionPolicy(log) });
     }
     case 'demo': {
       // The demo needs demo-data/ from a source checkout, so the production build leaves it
@@ -190,6 +193,20 @@ export async function main(argv: string[]): Promise<number> {
     default:
       throw usageError(`unknown command ${JSON.stringify(command)}`);
   }
+}
+
+/**
+ * Process-level policy of the long-running service: a promise rejection that nothing handled
+ * is a bug, but one lost background task must not take the monitor down. It is logged and
+ * counted (plumbline_unhandled_rejections_total); the process keeps serving.
+ */
+function installRejectionPolicy(log: Logger): () => number {
+  let count = 0;
+  process.on('unhandledRejection', (reason: unknown) => {
+    count++;
+    log.error('unhandled promise rejection', errorFields(reason));
+  });
+  return () => count;
 }
 
 /** What the CLI needs of src/demo (see the 'demo' command). */

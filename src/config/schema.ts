@@ -285,6 +285,10 @@ export const ConfigSchema = z
          * most one hour. Failures that are not connection trouble (bad config, a bug) wait 20 times as long.
          */
         retryBaseSeconds: z.number().positive().max(3600).default(15),
+        /** `serve`: a run still going after this long is aborted, recorded as failed and retried (a hung connection must not block later days). */
+        runTimeoutMinutes: z.number().positive().max(24 * 60).default(120),
+        /** `serve`: on SIGTERM a run in progress gets this long to finish; then its statements are cancelled and it is recorded as interrupted. */
+        shutdownGraceSeconds: z.number().int().min(0).max(3600).default(20),
         readiness: z
           .strictObject({
             /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
@@ -303,6 +307,18 @@ export const ConfigSchema = z
       .strictObject({
         host: z.string().default('127.0.0.1'),
         port: z.number().int().min(0).max(65535).default(9467),
+        /** Serve the status page at / (false: only metrics, health and the API). */
+        statusPage: z.boolean().default(true),
+        /**
+         * Host header values (name or name:port) the server answers; others get 421, so a
+         * DNS-rebinding page cannot reach it. Default: the bind address, localhost and
+         * 127.0.0.1, each with the port.
+         */
+        allowedHosts: z.array(z.string().min(1).regex(/^[A-Za-z0-9.\-\[\]:]+$/, 'must be a host name or address, optionally with :port')).min(1).optional(),
+        /** Every replica reloads the latest stored run at least this often (besides the store's notifications). */
+        refreshSeconds: positiveInt.max(86_400).default(60),
+        /** POST /api/v1/runs: off unless enabled; then it needs the bearer token PLUMBLINE_RUN_TOKEN (or PLUMBLINE_RUN_TOKEN_FILE). */
+        manualRuns: z.strictObject({ enabled: z.boolean().default(false) }).prefault({}),
       })
       .prefault({}),
     store: z

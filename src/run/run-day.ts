@@ -15,12 +15,13 @@ import { errorFields, type Logger } from '../log.ts';
 import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
 import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
+import { wasInterrupted } from './abort.ts';
 import { baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
 export interface RunStore {
   saveRun(report: Report): Promise<void>;
-  recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string }): Promise<void>;
+  recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string; outcome?: 'failure' | 'interrupted' }): Promise<void>;
   previousFindings(beforeDate: string): Promise<{ runDate: string; findings: Finding[] } | null>;
   loadBaseline(fingerprint: string): Promise<BaselineProfile | null>;
   saveBaseline(profile: BaselineProfile): Promise<void>;
@@ -34,7 +35,10 @@ export interface RunDeps {
   store: RunStore;
   log: Logger;
   now?: () => Date;
-  /** Aborts between days of a baseline build and before the final save. */
+  /**
+   * Aborts the run: checked between phases, and it cancels the source statement in flight.
+   * With a RunAbortError of kind `interrupted` as reason the run is recorded as interrupted.
+   */
   signal?: AbortSignal;
 }
 
@@ -72,8 +76,10 @@ export function daySampleCap(config: Config): number {
  */
 async function readSource<T>(deps: RunDeps, what: string, fn: (client: PoolClient) => Promise<T>): Promise<T> {
   try {
-    return await withReadOnlyTransaction(deps.source, fn);
+    return await withReadOnlyTransaction(deps.source, fn, deps.signal !== undefined ? { signal: deps.signal } : {});
   } catch (err) {
+    // A cancelled statement of an aborted run: the abort's reason says what happened.
+    if (deps.signal?.aborted === true) throw deps.signal.reason instanceof Error ? deps.signal.reason : new Error('run aborted');
     if (err instanceof ConfigError || err instanceof DataError || err instanceof SourceError) throw err;
     const code = sqlState(err);
     throw new SourceError(`${what} failed: ${(err as Error).message}${code !== undefined ? ` (SQLSTATE ${code})` : ''}`, { cause: err });
@@ -187,13 +193,24 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     return { report, durationSeconds };
   } catch (err) {
     const finished = now();
-    deps.log.error('run failed', { runDate, ...errorFields(err) });
+    const interrupted = wasInterrupted(deps.signal);
+    // Whatever the abort interrupted (a cancelled statement, a worker), its reason is the story.
+    const cause = deps.signal?.aborted === true && deps.signal.reason instanceof Error ? deps.signal.reason : err;
+    if (interrupted) deps.log.warn('run interrupted', { runDate, ...errorFields(cause) });
+    else deps.log.error('run failed', { runDate, ...errorFields(cause) });
     try {
-      await deps.store.recordFailure({ runDate, startedAt: started.toISOString(), finishedAt: finished.toISOString(), error: errorFields(err).error as string, configFingerprint: fingerprint });
+      await deps.store.recordFailure({
+        runDate,
+        startedAt: started.toISOString(),
+        finishedAt: finished.toISOString(),
+        error: errorFields(cause).error as string,
+        configFingerprint: fingerprint,
+        outcome: interrupted ? 'interrupted' : 'failure',
+      });
     } catch (recordErr) {
-      deps.log.error('could not record the failed run', errorFields(recordErr));
+      deps.log.error(`could not record the ${interrupted ? 'interrupted' : 'failed'} run`, errorFields(recordErr));
     }
-    throw err;
+    throw cause;
   }
 }
 

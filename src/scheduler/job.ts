@@ -12,7 +12,8 @@ import { addDays, baselineDates, dateInZone, dateRange, recordMissingSnapshot, r
 import { countDays, planSource } from '../source/index.ts';
 
 export interface JobStore extends RunStore {
-  latestEvaluatedDate(): Promise<string | null>;
+  /** The newest evaluated date not after `notAfter` (a stored future date is no reason to stop catching up). */
+  latestEvaluatedDate(notAfter?: string): Promise<string | null>;
   storedDates(from: string, to: string): Promise<string[]>;
 }
 
@@ -30,7 +31,7 @@ export async function datesDue(deps: JobDeps, now: Date): Promise<string[]> {
   const target = targetDate(deps.config, now);
   const max = deps.config.schedule.catchUpMaxDays;
   const from = addDays(target, -max);
-  const latest = await deps.store.latestEvaluatedDate();
+  const latest = await deps.store.latestEvaluatedDate(target);
   const start = latest === null ? target : latest >= target ? null : addDays(latest, 1) > from ? addDays(latest, 1) : from;
   if (start === null) {
     const stored = await deps.store.storedDates(target, target);

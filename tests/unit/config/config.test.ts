@@ -60,9 +60,11 @@ describe('defaults', () => {
       lagDays: 1,
       catchUpMaxDays: 7,
       retryBaseSeconds: 15,
+      runTimeoutMinutes: 120,
+      shutdownGraceSeconds: 20,
       readiness: { minRowFraction: 0.5, markerDateColumn: 'snapshot_date', retryEverySeconds: 300, deadlineMinutes: 360 },
     });
-    expect(c.http).toEqual({ host: '127.0.0.1', port: 9467 });
+    expect(c.http).toEqual({ host: '127.0.0.1', port: 9467, statusPage: true, refreshSeconds: 60, manualRuns: { enabled: false } });
     expect(c.store).toEqual({ schema: 'plumbline' });
   });
 
