@@ -70,7 +70,7 @@ export async function checkReadiness(deps: RunDeps, date: string): Promise<Readi
     const needed = Math.ceil(mean * r.minRowFraction);
     const ready = rows >= needed && rows > 0;
     return { ready, rows, reason: ready ? `${rows} rows (at least ${needed})` : `${rows} rows so far, waiting for ${needed} (${r.minRowFraction} x the baseline mean)` };
-  });
+  }, deps.signal !== undefined ? { signal: deps.signal } : {});
 }
 
 /**

@@ -75,13 +75,16 @@ export async function serve(options: ServeOptions): Promise<number> {
     metrics,
     runSchedule: options.runSchedule !== false,
     afterRun: async (run) => {
-      metrics.recordRun({ ok: run.ok, interrupted: run.interrupted, startedAt: run.startedAt.toISOString(), finishedAt: now().toISOString() });
+      // The run counters and last-run gauges come from the store (every replica shows the same);
+      // only when the store cannot be read is the run counted here, so it is not lost.
+      let latest: Report | null;
       try {
-        const latest = await refresher.refresh('run');
-        if (run.ok) await pusher.push(latest);
+        latest = await refresher.refresh('run');
       } catch {
-        // refresh() logged it; the next notification or period reloads.
+        metrics.recordRun({ ok: run.ok, interrupted: run.interrupted, startedAt: run.startedAt.toISOString(), finishedAt: now().toISOString() });
+        return;
       }
+      if (run.ok) await pusher.push(latest);
     },
   });
   const schedule = new ScheduleLoop({
@@ -150,6 +153,8 @@ export async function serve(options: ServeOptions): Promise<number> {
       try {
         await migrate(rt.storePool, config.store.schema);
         await refresher.start();
+        // Health gauges at once, not at the next probe.
+        await schedule.probe();
         coordinator.ready = true;
         break;
       } catch (err) {
@@ -172,7 +177,7 @@ export async function serve(options: ServeOptions): Promise<number> {
   stopping.abort();
   await schedule.stop();
   await coordinator.stop(grace);
-  await refresher.stop();
+  await within(refresher.stop(), 2000);
   await within(startUp, 1000);
   await http.close();
   await within(leader.release(), 2000);
