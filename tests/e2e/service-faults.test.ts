@@ -262,7 +262,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     if (successes.length === 1) expect(runs.filter((r) => r.outcome !== 'success').map((r) => r.outcome)).toEqual(['interrupted']);
 
     // After a restart the service serves the same, whole report.
-    const again = await startService({ runToken: RUN_TOKEN, config, sourceUrl: svcUrl, echo: true });
+    const again = await startService({ runToken: RUN_TOKEN, config, sourceUrl: svcUrl });
     const served = await until(`the report for ${day} after the restart`, 30_000, () => reportOf(again, day), 250);
     expect(served.findings).toHaveLength(newest.n!);
     if (successes.length === 1) expect(served).toEqual(before);
