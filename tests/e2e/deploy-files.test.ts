@@ -202,7 +202,7 @@ describe('the Kubernetes manifests', () => {
     expect(configMap.metadata.name).toBe('plumbline-config');
     const text = configMap.data!['plumbline.yaml']!;
     const config = parseConfig(parse(text), 'configmap plumbline.yaml');
-    expect(config.http).toEqual({ host: '0.0.0.0', port: 9467 });
+    expect(config.http).toMatchObject({ host: '0.0.0.0', port: 9467, manualRuns: { enabled: false } });
     // The comment right above `host:` explains why it is not the default 127.0.0.1.
     const before = text.slice(0, text.indexOf('host: 0.0.0.0'));
     expect(before).toMatch(/# .*127\.0\.0\.1[\s\S]*probe/);
