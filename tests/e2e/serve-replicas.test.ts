@@ -170,6 +170,13 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
     expect(page.status).toBe(200);
     expect(page.body).toContain(`<h1 id="run-h">Run of ${day} `);
     expect(await svc.stop()).toEqual({ code: 0, signal: null });
+
+    // http.statusPage: false leaves only metrics, health and the API.
+    const bare = await startService({ config: { ...config, http: { ...config.http, statusPage: false } }, sourceUrl: svcUrl });
+    expect((await bare.get('/')).status).toBe(404);
+    expect((await bare.get('/metrics')).status).toBe(200);
+    expect((await bare.get(`/api/v1/reports/${day}`)).status).toBe(200);
+    expect(await bare.stop()).toEqual({ code: 0, signal: null });
   }, 90_000);
 
   function postWithHost(target: string, host: string, token: string): Promise<number> {
