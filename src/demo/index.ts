@@ -104,3 +104,4 @@ export async function runDemo(options: DemoOptions): Promise<number> {
   }
 }
 
+export { startEmbeddedPostgres, type EmbeddedPostgres } from './embedded.ts';

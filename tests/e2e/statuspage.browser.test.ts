@@ -18,7 +18,7 @@ import { loadScenario } from '../../demo-data/load.ts';
 import { createPool, quoteIdent, type Pool } from '../../src/db/index.ts';
 import { Store } from '../../src/store/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
-import { startPglite, type PgliteServer } from '../support/pglite.ts';
+import { startEmbeddedPostgres, type EmbeddedPostgres } from '../../src/demo/index.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
 import { startService, type ServiceProcess } from '../support/service.ts';
 import { until } from '../support/tools.ts';
@@ -40,7 +40,7 @@ if (!HAS_CHROMIUM && IN_CI) {
 }
 
 describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' (skipped: /usr/bin/chromium not found)'}`, () => {
-  let pglite: PgliteServer | undefined;
+  let pglite: EmbeddedPostgres | undefined;
   let pool: Pool;
   let schema: string;
   let srcSchema: string | undefined;
@@ -61,8 +61,10 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     });
     // Reported when awaited below; closed in afterAll even if the database setup fails first.
     launching.catch(() => undefined);
-    const url = testDatabaseUrl() ?? (pglite = await startPglite()).url;
-    // PGlite serves one connection at a time (see tests/support/pglite.ts).
+    // Without a server: the embedded PostgreSQL the demo serves from (PGlite with room for the
+    // service's connections: source, store, leader lock, notifications). Its single session
+    // serves one statement at a time, so this test's own pool uses one connection.
+    const url = testDatabaseUrl() ?? (pglite = await startEmbeddedPostgres({ maxConnections: 16 })).url;
     pool = createPool({ url, applicationName: 'plumbline-statuspage-e2e', statementTimeoutMs: 30_000, max: pglite === undefined ? 4 : 1 });
     schema = uniqueSchema('statuspage_e2e');
     const store = new Store(pool, schema);
@@ -216,6 +218,6 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     // The 404 page logs a failed-resource message in some Chromium builds; nothing else may.
     expect(problems.filter((p) => !/status of 404/.test(p))).toEqual([]);
     // The service logged nothing at error level while serving the pages.
-    expect(svc!.logs.filter((l) => l.level === 'error')).toEqual([]);
+    expect(svc!.logs.filter((l) => l.level === 'error').map((l) => JSON.stringify(l))).toEqual([]);
   });
 });
