@@ -5,9 +5,9 @@
  * source's first snapshot has nothing to evaluate. Both are refused before anything is
  * stored, by the API (`POST /api/v1/runs`) and by `plumbline run` / `backfill` alike.
  */
-import type { Config } from '../config/index.ts';
-import { withReadOnlyTransaction, type Pool } from '../db/index.ts';
-import { ConfigError } from '../errors.ts';
+import { redactUrls, type Config } from '../config/index.ts';
+import { sqlState, withReadOnlyTransaction, type Pool } from '../db/index.ts';
+import { ConfigError, SourceError } from '../errors.ts';
 import { firstSnapshotDate, planSource } from '../source/index.ts';
 import { addDays, dateInZone } from './dates.ts';
 
@@ -32,11 +32,19 @@ export function checkNotTooNew(config: Config, date: string, now: Date): void {
 
 /**
  * Refuses dates outside [first snapshot in the source, newestRunnableDate]. Throws ConfigError
- * naming the date and the bound; a SourceError-style failure of the source query passes through.
+ * naming the date and the bound, or SourceError when the source cannot be read.
  */
 export async function checkRunnableDates(deps: { config: Config; source: Pool }, from: string, to: string, now: Date): Promise<void> {
   checkNotTooNew(deps.config, to, now);
-  const first = await withReadOnlyTransaction(deps.source, async (client) => firstSnapshotDate(client, await planSource(client, deps.config)));
+  let first: string | null;
+  try {
+    first = await withReadOnlyTransaction(deps.source, async (client) => firstSnapshotDate(client, await planSource(client, deps.config)));
+  } catch (err) {
+    if (err instanceof ConfigError || err instanceof SourceError) throw err;
+    const code = sqlState(err);
+    // The same words as a run's own first read, so both failures read alike.
+    throw new SourceError(`checking the source against the config failed: ${redactUrls((err as Error).message)}${code !== undefined ? ` (SQLSTATE ${code})` : ''}`, { cause: err });
+  }
   if (first === null) {
     const msg = `${from}: the source ${deps.config.source.table} holds no snapshot yet`;
     throw new ConfigError(msg, [msg]);

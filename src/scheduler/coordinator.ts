@@ -143,9 +143,11 @@ export class RunCoordinator {
               this.#manualStreak = 0;
               return this.#runDateClaimed(date, 'manual');
             })();
-      void work.finally(() => {
-        this.#claimed = false;
-      });
+      void work
+        .catch((err: unknown) => log.error('manual run crashed', errorFields(err)))
+        .finally(() => {
+          this.#claimed = false;
+        });
       return { accepted: true, status: 202, message: date === null ? 'running the due days' : `running ${date}` };
     } finally {
       if (!launched) this.#claimed = false;
