@@ -2,3 +2,4 @@ export { createPool, withReadOnlyTransaction, withTransaction, cancelBackend, is
 export { quoteIdent, quoteQualified, splitQualified, describeRelation, type RelationInfo } from './identifiers.ts';
 export { advisoryKey, advisoryXactLock } from './locks.ts';
 export { listenToChannel, type ChannelListener, type ChannelListenerOptions } from './listen.ts';
+export { copyOut } from './copy.ts';

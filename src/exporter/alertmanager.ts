@@ -19,7 +19,7 @@
  * Neither ever appears in an error message: URLs are shown by origin, other text is redacted.
  */
 import { redactUrls } from '../config/index.ts';
-import type { Finding, Report } from '../report/contract.ts';
+import type { Finding, Report } from '../report/index.ts';
 import { alertNameFor, DEFAULT_RUNBOOK_URL, runbookUrl, severityFor } from './alerts.ts';
 
 /** The identifying labels of one pushed alert. */
