@@ -196,7 +196,7 @@ export class RunCoordinator {
       this.#unavailableStreak = 0;
       return true;
     }
-    if (role === 'unavailable' && (reason === 'retry' || reason === 'start')) {
+    if (role === 'unavailable' && (reason === 'retry' || reason === 'start' || reason === 'schedule')) {
       // Nobody can be sure another replica runs it: keep trying.
       this.#unavailableStreak++;
       this.#retry.schedule(retryDelayMs(this.deps.config, null, this.#unavailableStreak), 'the store cannot be asked for the leader lock');
