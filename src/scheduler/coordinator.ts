@@ -17,6 +17,7 @@ import type { Runtime } from '../runtime.ts';
 import { dailyJob, targetDate } from './job.ts';
 import type { LeaderLock, LeaderRole } from './leader.ts';
 import { deadlineHasPassed, retryDelayMs, RetryTimer } from './retry.ts';
+import { within } from './shutdown.ts';
 
 /** What a finished run tells the rest of the service (metrics, results reload, Alertmanager). */
 export interface FinishedRun {
@@ -299,9 +300,11 @@ export class RunCoordinator {
       const error = ctl.signal.reason as Error;
       log.error('the aborted run did not stop; giving up on it', { date, ...errorFields(error) });
       const interrupted = wasInterrupted(ctl.signal);
-      await this.deps.rt.store
+      // Bounded: the store may be behind the same dead path.
+      const recorded = this.deps.rt.store
         .recordFailure({ runDate: date, startedAt: startedAt.toISOString(), finishedAt: now().toISOString(), error: error.message, configFingerprint: configFingerprint(config), outcome: interrupted ? 'interrupted' : 'failure' })
         .catch((err: unknown) => log.error('could not record the abandoned run', errorFields(err)));
+      if (!(await within(recorded, 5000))) log.error('could not record the abandoned run', { error: 'the store did not answer within 5 s' });
       return { ok: false, error, signal: ctl.signal };
     } finally {
       clearTimeout(deadline);

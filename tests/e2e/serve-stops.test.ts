@@ -141,6 +141,36 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     expect(await svc.stop()).toEqual({ code: 0, signal: null });
   }, 120_000);
 
+  it('a half-open source connection: the run deadline gives up on the hung run, records it failed, and a retry succeeds once the path is back', async () => {
+    const day = yesterday();
+    const { view, store, gate } = await gatedSource('stop_halfopen', day);
+    await gate(600);
+    const proxy = await startTcpProxy(url!);
+    proxies.push(proxy);
+    const app = 'plumbline-e2e-stop-halfopen';
+    // The source goes through the proxy; the store does not (so the failure can be recorded).
+    const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: proxy.rewrite(withApplicationName(url!, app)), storeUrl: url! });
+    await sleepingCopy(app);
+    const from = svc.logs.length;
+    // The network path dies silently: no data, no FIN, no RST; new connections hang too.
+    proxy.freeze();
+    await svc.waitForLog('the hung run to be given up on', (l) => l.msg === 'the aborted run did not stop; giving up on it' && l['date'] === day, 30_000, from);
+    await svc.waitForLog('the retry', (l) => l.msg === 'next attempt scheduled' && l['why'] === `run of ${day} failed`, 10_000, from);
+    const failed = (await runsOf(store)).filter((r) => r.outcome === 'failure');
+    expect(failed.length).toBeGreaterThanOrEqual(1);
+    expect(failed[0]!.error).toBe(`the run of ${day} exceeded schedule.runTimeoutMinutes (0.05 min)`);
+    // The service still answers while the run hangs.
+    expect((await svc.get('/healthz')).status).toBe(200);
+    // The path comes back (the dead connections are cut, as a router reboot would).
+    await gate(0);
+    proxy.killAll();
+    proxy.thaw();
+    await admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name = $1 AND state = 'active'`, [app]);
+    await svc.waitForLog('a retry to store the day', (l) => l.msg === 'run completed' && l['runDate'] === day, 90_000, from);
+    expect((await runsOf(store)).at(-1)!.outcome).toBe('success');
+    expect(await svc.stop()).toEqual({ code: 0, signal: null });
+  }, 150_000);
+
   it('the store goes down mid-run (the failure cannot be recorded, the leader lock cannot be asked): the retry still runs once it is back', async () => {
     const day = yesterday();
     const { view, store, gate } = await gatedSource('stop_storedown', day);
