@@ -202,7 +202,11 @@ export async function main(argv: string[]): Promise<number> {
     case 'serve': {
       const { serve } = await import('./scheduler/index.ts');
       const config = loadConfigFile(configPath(values, rest));
-      return serve({ config, log, openRuntime, unhandledRejections: installRejectionPolicy(log) });
+      const code = await serve({ config, log, openRuntime, unhandledRejections: installRejectionPolicy(log) });
+      // serve() has closed everything it opened; a socket a dead peer still holds must not keep
+      // the process alive past its stop (an unref'd timer fires only if something else lingers).
+      setTimeout(() => process.exit(code), 1000).unref();
+      return code;
     }
     case 'demo': {
       // The demo needs demo-data/ from a source checkout, so the production build leaves it

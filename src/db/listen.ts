@@ -68,7 +68,11 @@ export function listenToChannel(options: ChannelListenerOptions): ChannelListene
     try {
       await c.connect();
       await c.query(`LISTEN ${c.escapeIdentifier(options.channel)}`);
-      if (closed || client !== c) return;
+      if (closed || client !== c) {
+        // Closed (or replaced) while connecting: this connection must not outlive the listener.
+        await c.end().catch(() => undefined);
+        return;
+      }
       connected = true;
       failures = 0;
       options.onNotify(null);

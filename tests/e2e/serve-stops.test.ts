@@ -23,6 +23,9 @@ import { until } from '../support/tools.ts';
 const url = testDatabaseUrl();
 const BASELINE_DAYS = 5;
 const yesterday = (): string => addDays(new Date().toISOString().slice(0, 10), -1);
+/** application_name of this run's services: unique, so a backend left sleeping by an earlier run never matches. */
+const RUN_ID = `${process.pid}-${Date.now().toString(36)}`;
+const appName = (what: string): string => `plumbline-e2e-${what}-${RUN_ID}`;
 
 describe.skipIf(url === undefined)(`serve with a long statement in flight${url === undefined ? ' (skipped: PLUMBLINE_TEST_DATABASE_URL is not set)' : ''}`, () => {
   let admin: pg.Client;
@@ -38,6 +41,8 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     await stopAllServices();
     await Promise.all(proxies.map((p) => p.close()));
     if (admin !== undefined) {
+      // Statements still sleeping in the gate (a cut connection is noticed only when they write) hold locks DROP SCHEMA needs.
+      await admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name LIKE $1`, [`%-${RUN_ID}`]);
       for (const s of schemas) await admin.query(`DROP SCHEMA IF EXISTS "${s}" CASCADE`);
       await admin.end();
     }
@@ -90,7 +95,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     const day = yesterday();
     const { view, store, gate } = await gatedSource('stop_term', day);
     await gate(600);
-    const app = 'plumbline-e2e-stop-term';
+    const app = appName('stop-term');
     const svc = await startService({ config: config(view, store, { shutdownGraceSeconds: 6 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
     await sleepingCopy(app);
     const sent = Date.now();
@@ -122,7 +127,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     const day = yesterday();
     const { view, store, gate } = await gatedSource('stop_deadline', day);
     await gate(600);
-    const app = 'plumbline-e2e-stop-deadline';
+    const app = appName('stop-deadline');
     // 0.05 minutes: 3 s.
     const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
     const failed = await svc.waitForLog('the deadline', (l) => l.msg === 'run failed' && l['runDate'] === day, 30_000);
@@ -147,7 +152,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     await gate(600);
     const proxy = await startTcpProxy(url!);
     proxies.push(proxy);
-    const app = 'plumbline-e2e-stop-halfopen';
+    const app = appName('stop-halfopen');
     // The source goes through the proxy; the store does not (so the failure can be recorded).
     const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: proxy.rewrite(withApplicationName(url!, app)), storeUrl: url! });
     await sleepingCopy(app);
@@ -177,9 +182,9 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     await gate(600);
     const proxy = await startTcpProxy(url!);
     proxies.push(proxy);
-    const app = 'plumbline-e2e-stop-storedown';
+    const app = appName('stop-storedown');
     const dbUrl = proxy.rewrite(withApplicationName(url!, app));
-    const svc: ServiceProcess = await startService({ config: config(view, store), sourceUrl: dbUrl, storeUrl: dbUrl });
+    const svc: ServiceProcess = await startService({ config: config(view, store), sourceUrl: dbUrl, storeUrl: dbUrl, echo: process.env['PLUMBLINE_TEST_ECHO'] === '1' });
     await sleepingCopy(app);
     const from = svc.logs.length;
     // PostgreSQL "goes away": every connection through the proxy is cut and new ones are refused.
