@@ -119,18 +119,19 @@ export class RunCoordinator {
     const { config, log } = this.deps;
     if (this.#stopping) return { accepted: false, status: 503, message: 'the service is shutting down' };
     if (!this.ready) return { accepted: false, status: 503, message: 'the store is not ready yet' };
+    // A date out of range is refused whatever else is going on (400 before 409).
+    if (date !== null) {
+      try {
+        await checkRunnableDates({ config, source: this.deps.rt.source }, date, date, this.deps.now());
+      } catch (err) {
+        if (err instanceof ConfigError) return { accepted: false, status: 400, message: err.message };
+        log.warn('manual run refused: the source cannot be checked', errorFields(err));
+        return { accepted: false, status: 503, message: 'source unreachable' };
+      }
+    }
     if (!this.#claim()) return { accepted: false, status: 409, message: 'a run is in progress' };
     let launched = false;
     try {
-      if (date !== null) {
-        try {
-          await checkRunnableDates({ config, source: this.deps.rt.source }, date, date, this.deps.now());
-        } catch (err) {
-          if (err instanceof ConfigError) return { accepted: false, status: 400, message: err.message };
-          log.warn('manual run refused: the source cannot be checked', errorFields(err));
-          return { accepted: false, status: 503, message: 'source unreachable' };
-        }
-      }
       const role = await this.#role();
       if (role === 'follower') return { accepted: false, status: 409, message: 'another replica holds the leader lock and runs all runs; send the request to it (plumbline_leader 1)' };
       if (role === 'unavailable') return { accepted: false, status: 503, message: 'store unreachable' };

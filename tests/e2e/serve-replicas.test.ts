@@ -75,7 +75,7 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
     // --- a manual re-run on the leader: B follows through NOTIFY ---------------------------------
     const lastRunOnB = await b.metric('plumbline_last_run_timestamp_seconds');
     const fromA = a.logs.length;
-    const accepted = await a.post(`/api/v1/runs?date=${day}`);
+    const accepted = await a.postRun(`/api/v1/runs?date=${day}`);
     expect(accepted.status, accepted.body).toBe(202);
     const done = await a.waitForLog('the re-run', (l) => l.msg === 'run completed' && l['runDate'] === day, 60_000, fromA);
     const seenOnB = await until('B to export the re-run', 15_000, async () => ((await b.metric('plumbline_runs_total')) === 2 ? Date.now() : undefined), 20);

@@ -136,7 +136,7 @@ describe.skipIf(skipWhy !== null)(`no secret leaks from a whole serve cycle${ski
     bodies.push(wrong.body);
     expect(wrong.status).toBe(401);
     const from = svc.logs.length;
-    const right = await svc.post(`/api/v1/runs?date=${day}`);
+    const right = await svc.postRun(`/api/v1/runs?date=${day}`);
     bodies.push(right.body);
     expect(right.status).toBe(202);
     await svc.waitForLog('the re-run', (l) => l.msg === 'run completed' && l['runDate'] === day, 60_000, from);

@@ -176,7 +176,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const from = svc.logs.length;
     let failedAt: number;
     try {
-      const res = await svc.post(`/api/v1/runs?date=${day}`);
+      const res = await svc.postRun(`/api/v1/runs?date=${day}`);
       expect(res.status).toBe(202);
       await svc.waitForLog('the killed run to fail', (l) => l.msg === 'run failed' && l['runDate'] === day, 30_000, from);
       failedAt = Date.now();
@@ -234,7 +234,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     expect(before.current.rows).toBe(rows);
 
     const from = svc.logs.length;
-    expect((await svc.post(`/api/v1/runs?date=${day}`)).status).toBe(202);
+    expect((await svc.postRun(`/api/v1/runs?date=${day}`)).status).toBe(202);
     await svc.waitForLog('the re-run to start', (l) => l.msg === 'running a date' && l['date'] === day, 10_000, from);
     const sent = Date.now();
     svc.signal('SIGTERM');
@@ -333,7 +333,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
       await until(`the catch-up report for ${day}`, 60_000, () => reportOf(svc, day), 250);
       // And once more by request: a faulty day run on demand must not stop the service either.
       const from = svc.logs.length;
-      expect((await svc.post(`/api/v1/runs?date=${day}`)).status).toBe(202);
+      expect((await svc.postRun(`/api/v1/runs?date=${day}`)).status).toBe(202);
       await svc.waitForLog('the requested run to complete', (l) => (l.msg === 'run completed' || l.msg === 'run failed') && l['runDate'] === day, 30_000, from);
       expect(svc.logs.slice(from).some((l) => l.msg === 'run failed')).toBe(false);
       expect(svc.exit).toBeNull();

@@ -193,6 +193,20 @@ export class ServiceProcess {
     return { status: res.status, json, body };
   }
 
+  /**
+   * POST /api/v1/runs...: like post(), but waits while the service answers 409 "a run is in
+   * progress" (the run before may still be publishing its results), at most `limitMs`.
+   */
+  async postRun(path: string, limitMs = 15_000): Promise<{ status: number; json: unknown; body: string }> {
+    const deadline = Date.now() + limitMs;
+    for (;;) {
+      const r = await this.post(path);
+      const busy = r.status === 409 && (r.json as { message?: string } | undefined)?.message === 'a run is in progress';
+      if (!busy || Date.now() >= deadline) return r;
+      await new Promise((resolve) => setTimeout(resolve, 100));
+    }
+  }
+
   async metrics(): Promise<Sample[]> {
     const res = await fetch(`${this.url}/metrics`);
     if (res.status !== 200) throw new Error(`/metrics answered ${res.status}`);
