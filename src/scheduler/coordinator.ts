@@ -12,12 +12,12 @@ import type { Config } from '../config/index.ts';
 import { ConfigError } from '../errors.ts';
 import type { PlumblineMetrics } from '../exporter/index.ts';
 import { errorFields, type Logger } from '../log.ts';
-import { checkRunnableDates, configFingerprint, runDay, RunAbortError, wasInterrupted } from '../run/index.ts';
+import { checkRunnableDates, runDay, RunAbortError, wasInterrupted } from '../run/index.ts';
 import type { Runtime } from '../runtime.ts';
 import { dailyJob, targetDate } from './job.ts';
 import type { LeaderLock, LeaderRole } from './leader.ts';
 import { deadlineHasPassed, retryDelayMs, RetryTimer } from './retry.ts';
-import { within } from './shutdown.ts';
+import { runGuarded, type GuardedResult } from './guarded-run.ts';
 
 /** What a finished run tells the rest of the service (metrics, results reload, Alertmanager). */
 export interface FinishedRun {
@@ -51,9 +51,6 @@ const sleep = (ms: number): { done: Promise<void>; cancel: () => void } => {
   });
   return { done, cancel: () => clearTimeout(t) };
 };
-
-/** How long an aborted run may take to notice before it is given up on (a hung connection never answers). */
-const ABANDON_AFTER_MS = 10_000;
 
 export class RunCoordinator {
   /** Set once the store is migrated and the latest results are loaded. */
@@ -158,8 +155,8 @@ export class RunCoordinator {
 
   /**
    * Stops: no new runs or retries; a run in progress gets `graceMs` in all, after which it
-   * is aborted (its statement cancelled, recorded as interrupted). Resolves within graceMs
-   * (plus a moment when graceMs is under ABANDON_AFTER_MS / 2).
+   * is aborted (its statement cancelled, recorded as interrupted). Resolves within graceMs,
+   * or one second when graceMs is shorter (time for the abort).
    */
   async stop(graceMs: number): Promise<void> {
     this.#stopping = true;
@@ -262,13 +259,8 @@ export class RunCoordinator {
     this.#retry.schedule(retryDelayMs(config, result.error, this.#manualStreak), `run of ${date} failed`);
   }
 
-  /**
-   * Runs `work` under the run deadline. Never throws. A run that does not stop within
-   * ABANDON_AFTER_MS of its abort (a connection that never answers) is given up on: recorded
-   * as failed here, so later runs are not blocked behind it.
-   */
-  async #execute<T>(date: string, work: (signal: AbortSignal) => Promise<T>): Promise<{ ok: true; value: T; signal: AbortSignal } | { ok: false; error: unknown; signal: AbortSignal }> {
-    const { config, log, now } = this.deps;
+  /** Runs `work` under the run deadline (guarded-run.ts), as the run `stop()` can abort. Never throws. */
+  async #execute<T>(date: string, work: (signal: AbortSignal) => Promise<T>): Promise<GuardedResult<T>> {
     const ctl = new AbortController();
     if (this.#stopping) {
       // Stop arrived while the lock was being taken: do not start.
@@ -276,40 +268,12 @@ export class RunCoordinator {
       return { ok: false, error: ctl.signal.reason, signal: ctl.signal };
     }
     this.#abort = ctl;
-    const startedAt = now();
-    const limitMs = config.schedule.runTimeoutMinutes * 60_000;
-    const deadline = setTimeout(() => {
-      log.error('run deadline exceeded; aborting it', { date, runTimeoutMinutes: config.schedule.runTimeoutMinutes });
-      ctl.abort(new RunAbortError('deadline', `the run of ${date} exceeded schedule.runTimeoutMinutes (${config.schedule.runTimeoutMinutes} min)`));
-    }, limitMs);
-    deadline.unref();
-    let abandon: NodeJS.Timeout | undefined;
-    const abandoned = new Promise<'abandoned'>((resolve) => {
-      ctl.signal.addEventListener('abort', () => {
-        abandon = setTimeout(() => resolve('abandoned'), ABANDON_AFTER_MS);
-        abandon.unref();
-      }, { once: true });
-    });
-    const settled = work(ctl.signal).then(
-      (value) => ({ ok: true as const, value, signal: ctl.signal }),
-      (error: unknown) => ({ ok: false as const, error, signal: ctl.signal }),
-    );
-    this.#running = settled.then(() => undefined);
+    const { config, log, now, rt } = this.deps;
+    const guarded = runGuarded(ctl, work, { config, log, now, store: rt.store, date });
+    this.#running = guarded.then(() => undefined);
     try {
-      const r = await Promise.race([settled, abandoned]);
-      if (r !== 'abandoned') return r;
-      const error = ctl.signal.reason as Error;
-      log.error('the aborted run did not stop; giving up on it', { date, ...errorFields(error) });
-      const interrupted = wasInterrupted(ctl.signal);
-      // Bounded: the store may be behind the same dead path.
-      const recorded = this.deps.rt.store
-        .recordFailure({ runDate: date, startedAt: startedAt.toISOString(), finishedAt: now().toISOString(), error: error.message, configFingerprint: configFingerprint(config), outcome: interrupted ? 'interrupted' : 'failure' })
-        .catch((err: unknown) => log.error('could not record the abandoned run', errorFields(err)));
-      if (!(await within(recorded, 5000))) log.error('could not record the abandoned run', { error: 'the store did not answer within 5 s' });
-      return { ok: false, error, signal: ctl.signal };
+      return await guarded;
     } finally {
-      clearTimeout(deadline);
-      if (abandon !== undefined) clearTimeout(abandon);
       this.#running = null;
       this.#abort = null;
     }
