@@ -27,3 +27,5 @@ export type { QualityCounts } from './quality.ts';
 export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViolated } from './withinlist.ts';
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
 export { categoryPsi } from './categorical.ts';
+export { countBeyondSorted, extremeBoundsSorted } from './extremes.ts';
+export type { ExtremeBounds, ExtremeBoundsOptions } from './extremes.ts';

@@ -6,6 +6,7 @@
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
+import { main as trustBench } from './trust.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -15,3 +16,6 @@ await runBench();
 console.log('');
 console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
 await pushdownBench();
+console.log('');
+console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
+await trustBench();
