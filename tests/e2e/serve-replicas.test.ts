@@ -18,7 +18,7 @@ import { loadScenario } from '../../demo-data/load.ts';
 import { addDays } from '../../demo-data/scenario.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { runCli, startService, stopAllServices, withApplicationName } from '../support/service.ts';
+import { runCli, runServeExpectingExit, startService, stopAllServices, withApplicationName } from '../support/service.ts';
 import { until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
@@ -165,11 +165,19 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
     });
     expect((latest as { runDate: string }).runDate).toBe(day);
     await until('the metrics of the catch-up run', 10_000, async () => ((await svc.metric('plumbline_snapshot_date_timestamp_seconds')) === Date.parse(`${day}T00:00:00Z`) / 1000 ? true : undefined));
+    // Manual runs are off unless enabled: the route does not exist.
+    expect((await svc.post(`/api/v1/runs?date=${day}`)).status).toBe(404);
     // The status page shows the same "latest".
     const page = await svc.get('/');
     expect(page.status).toBe(200);
     expect(page.body).toContain(`<h1 id="run-h">Run of ${day} `);
     expect(await svc.stop()).toEqual({ code: 0, signal: null });
+
+    // Enabled without a token: refused before anything starts (exit 2, naming the variable).
+    const noToken = await runServeExpectingExit({ config: { ...config, http: { ...config.http, manualRuns: { enabled: true } } }, sourceUrl: svcUrl });
+    expect(noToken.exit).toEqual({ code: 2, signal: null });
+    expect(noToken.stderr.join('\n')).toContain('PLUMBLINE_RUN_TOKEN');
+    expect(noToken.logs.some((l) => l.msg === 'listening')).toBe(false);
 
     // http.statusPage: false leaves only metrics, health and the API.
     const bare = await startService({ config: { ...config, http: { ...config.http, statusPage: false } }, sourceUrl: svcUrl });
