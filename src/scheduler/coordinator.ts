@@ -82,7 +82,11 @@ export class RunCoordinator {
   /** Runs what is due now (the target date and missed days). A call while busy is skipped. */
   async runDue(reason: string): Promise<void> {
     if (this.#stopping || !this.ready || (!this.deps.runSchedule && reason !== 'manual')) return;
-    if (!this.#claim()) return;
+    if (!this.#claim()) {
+      // A retry that meets another run (a manual one) waits for it rather than being dropped.
+      if (reason === 'retry') this.#retry.schedule(retryDelayMs(this.deps.config, null, 1), 'due days wait for the run in progress');
+      return;
+    }
     try {
       if (!(await this.#lead(reason))) return;
       await this.#runDueClaimed(reason);
