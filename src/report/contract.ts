@@ -32,6 +32,7 @@ export const FEATURE_CHECKS = [
   'distinct_ratio_drop',
   'extreme_value_ratio',
   'new_category_ratio',
+  'category_cardinality',
   'rule_violation_ratio',
   'flat_list_ratio',
 ] as const;
@@ -46,9 +47,11 @@ export const DATASET_CHECKS = [
   'duplicate_item_ratio',
   'position_gap_ratio',
   'null_list_id_ratio',
+  'null_item_id_ratio',
   'singleton_list_ratio',
   'label_positive_ratio',
   'no_positive_list_ratio',
+  'null_label_ratio',
 ] as const;
 export type DatasetCheck = (typeof DATASET_CHECKS)[number];
 
@@ -67,6 +70,7 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   distinct_ratio_drop: 'quality',
   extreme_value_ratio: 'quality',
   new_category_ratio: 'drift',
+  category_cardinality: 'quality',
   rule_violation_ratio: 'within_list',
   flat_list_ratio: 'within_list',
   snapshot_missing: 'dataset',
@@ -76,6 +80,8 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   duplicate_item_ratio: 'dataset',
   position_gap_ratio: 'dataset',
   null_list_id_ratio: 'dataset',
+  null_item_id_ratio: 'dataset',
+  null_label_ratio: 'dataset',
   singleton_list_ratio: 'dataset',
   label_positive_ratio: 'dataset',
   no_positive_list_ratio: 'dataset',

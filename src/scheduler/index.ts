@@ -14,5 +14,6 @@ export { ScheduleLoop, type ScheduleLoopDeps } from './schedule.ts';
 export { ResultsRefresher, type RefresherDeps } from './refresher.ts';
 export { AlertPusher } from './alert-push.ts';
 export { signalPromise, within } from './shutdown.ts';
-export { dailyJob, datesDue, checkReadiness, targetDate, type DayOutcome, type JobDeps, type JobStore, type Readiness } from './job.ts';
+export { dailyJob, pruneStore, datesDue, checkReadiness, targetDate, type DayOutcome, type JobDeps, type JobStore, type Readiness } from './job.ts';
 export { LeaderLock, leaderLockKeys, type LeaderRole } from './leader.ts';
+export { retentionPolicy } from './retention.ts';

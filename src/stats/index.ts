@@ -26,6 +26,9 @@ export {
 export type { QualityCounts } from './quality.ts';
 export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViolated } from './withinlist.ts';
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
-export { categoryPsi } from './categorical.ts';
+export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCategory } from './categorical.ts';
+export type { CategoryCounts } from './categorical.ts';
+export { LARGE_MAGNITUDE, LARGE_SCALE_EXP, addToSplitSum, meanOfSplitSum } from './safesum.ts';
+export type { SplitSum } from './safesum.ts';
 export { countBeyondSorted, extremeBoundsSorted } from './extremes.ts';
 export type { ExtremeBounds, ExtremeBoundsOptions } from './extremes.ts';
