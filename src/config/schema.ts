@@ -102,6 +102,11 @@ export const DEFAULT_THRESHOLDS = {
   row_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
   list_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
   label_positive_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 2 },
+  position_rank_correlation: { warn: 0.1, critical: 0.2 },
+  score_rank_correlation: { warn: 0.1, critical: 0.2 },
+  mean_reciprocal_rank: { warn: 0.03, critical: 0.06 },
+  ndcg: { warn: 0.03, critical: 0.06 },
+  positive_position_psi: { warn: 0.02, critical: 0.05 },
 } as const;
 
 const ThresholdsSchema = z
@@ -132,6 +137,21 @@ const ThresholdsSchema = z
     row_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.row_count_ratio),
     list_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.list_count_ratio),
     label_positive_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.label_positive_ratio),
+    /** Change of the mean per-list Spearman rho (feature vs position) from the baseline days' mean. */
+    position_rank_correlation: AboveThreshold.default(DEFAULT_THRESHOLDS.position_rank_correlation),
+    /** Change of the mean per-list Spearman rho (feature vs model score) from the baseline days' mean. */
+    score_rank_correlation: AboveThreshold.default(DEFAULT_THRESHOLDS.score_rank_correlation),
+    /** Change of the mean reciprocal rank of the first positive from the baseline days' mean. */
+    mean_reciprocal_rank: AboveThreshold.default(DEFAULT_THRESHOLDS.mean_reciprocal_rank),
+    /** Change of the mean NDCG@k (outcome.ndcgAt) from the baseline days' mean. */
+    ndcg: AboveThreshold.default(DEFAULT_THRESHOLDS.ndcg),
+    /** PSI of positive labels over served-rank buckets (the click curve). */
+    positive_position_psi: AboveThreshold.default(DEFAULT_THRESHOLDS.positive_position_psi),
+    /**
+     * A change of a per-day mean of per-list values (rank correlations, MRR, NDCG) must also
+     * exceed this many standard deviations of its no-change noise (lists and day-to-day spread).
+     */
+    rankingNoiseZ: z.number().positive().default(4),
   })
   .prefault({});
 
@@ -150,6 +170,8 @@ const FeatureThresholdOverrides = z
     new_category_ratio: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
+    position_rank_correlation: AboveThreshold.optional(),
+    score_rank_correlation: AboveThreshold.optional(),
   })
   .optional();
 
@@ -297,6 +319,18 @@ export const ConfigSchema = z
             deadlineMinutes: positiveInt.default(360),
           })
           .prefault({}),
+      })
+      .prefault({}),
+    outcome: z
+      .strictObject({
+        /** The k of NDCG@k over labels in served order. */
+        ndcgAt: positiveInt.max(1000).default(10),
+        /**
+         * Labels (clicks, purchases) arrive late: the run for day D evaluates the outcome
+         * checks for D - labelLagDays, re-reading that day and its baseline days' labels from
+         * the source at run time. 0: outcomes of the evaluated day itself, from its profile.
+         */
+        labelLagDays: z.number().int().min(0).max(60).default(0),
       })
       .prefault({}),
     http: z

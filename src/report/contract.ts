@@ -33,6 +33,8 @@ export const FEATURE_CHECKS = [
   'new_category_ratio',
   'rule_violation_ratio',
   'flat_list_ratio',
+  'position_rank_correlation',
+  'score_rank_correlation',
 ] as const;
 export type FeatureCheck = (typeof FEATURE_CHECKS)[number];
 
@@ -48,6 +50,9 @@ export const DATASET_CHECKS = [
   'singleton_list_ratio',
   'label_positive_ratio',
   'no_positive_list_ratio',
+  'mean_reciprocal_rank',
+  'ndcg',
+  'positive_position_psi',
 ] as const;
 export type DatasetCheck = (typeof DATASET_CHECKS)[number];
 
@@ -77,6 +82,13 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   singleton_list_ratio: 'dataset',
   label_positive_ratio: 'dataset',
   no_positive_list_ratio: 'dataset',
+  // A feature's association with the order breaks with the pipeline, like a within-list rule.
+  position_rank_correlation: 'within_list',
+  score_rank_correlation: 'within_list',
+  // Outcomes move with traffic and label noise: held like drift before they page.
+  mean_reciprocal_rank: 'drift',
+  ndcg: 'drift',
+  positive_position_psi: 'drift',
 };
 
 /** Thresholds as they were applied to a finding. */

@@ -27,3 +27,7 @@ export type { QualityCounts } from './quality.ts';
 export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViolated } from './withinlist.ts';
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
 export { categoryPsi } from './categorical.ts';
+export { RankScratch, averageRanksInto, rhoFromRanks, spearmanInto, spearmanRho } from './spearman.ts';
+export { POSITION_BUCKET_LABELS, POSITION_BUCKET_UPPER, ndcgAtK, positionBucket, reciprocalRank } from './ranking-outcome.ts';
+export { addToMeanSums, dailyMeanShift, emptyMeanSums, meanOfSums, mergeMeanSums, varianceOfSums } from './daily-mean-shift.ts';
+export type { MeanShift, MeanSums } from './daily-mean-shift.ts';
