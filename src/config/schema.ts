@@ -151,7 +151,7 @@ const ThresholdsSchema = z
      * A change of a per-day mean of per-list values (rank correlations, MRR, NDCG) must also
      * exceed this many standard deviations of its no-change noise (lists and day-to-day spread).
      */
-    rankingNoiseZ: z.number().positive().default(4),
+    rankingNoiseZ: z.number().positive().default(3),
   })
   .prefault({});
 
