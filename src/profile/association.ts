@@ -212,9 +212,10 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
 
 /**
  * Outcome of the served order from labels: per list with at least one positive label
- * (label > 0) and a position, the reciprocal rank of the first positive and NDCG@k (linear
- * gain, 1 / log2(1 + rank) discount, ranks as served: rows tied on position share a rank);
- * positives counted per served-rank bucket. Lists without a positive are not included
+ * (label > 0) and a position, the reciprocal rank of the first positive (rows tied on
+ * position share the better rank, rank() in SQL) and NDCG@k (linear gain, 1 / log2(1 + rank)
+ * discount, rows tied on position at their average rank); positives counted per bucket of
+ * served rank (rank()). Lists without a positive are not included
  * (they are the no-positive ratio of the dataset counts).
  */
 export function outcomeCounts(label: Float64Array, served: ServedOrder, k: number): OutcomeCounts {
@@ -247,9 +248,9 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
     }
     if (positives === 0) continue;
     const labels = ys.subarray(0, n);
-    const ranks = served.servedRank.subarray(e0, e0 + n);
-    const rr = reciprocalRank(labels, ranks)!;
-    const nd = ndcgAtK(labels, k, ranks, scratch)!;
+    const rr = reciprocalRank(labels, served.servedRank.subarray(e0, e0 + n))!;
+    // Rows tied on position take their average rank (NDCG then stays <= 1).
+    const nd = ndcgAtK(labels, k, served.positionRank.subarray(e0, e0 + n), scratch)!;
     out.lists++;
     out.reciprocalRank.count++;
     out.reciprocalRank.sum += rr;

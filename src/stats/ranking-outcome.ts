@@ -34,8 +34,9 @@ export function reciprocalRank(labels: ArrayLike<number>, ranks?: ArrayLike<numb
  * What: DCG@k = sum over the items at rank r <= k of gain / log2(1 + r), with gain = the
  * label itself (linear gain; labels <= 0 or missing gain 0), divided by the DCG@k of the
  * same labels sorted descending (the ideal order). Null when no label is positive (the
- * ideal DCG is 0). With `ranks`, an item's rank is ranks[i] (tied positions share a rank,
- * and so a discount); the ideal order always uses ranks 1..n.
+ * ideal DCG is 0). With `ranks`, an item's rank is ranks[i]: items tied on position should
+ * get the average of the ranks they span, so that (the discount being convex) NDCG stays
+ * <= 1; the ideal order always uses ranks 1..n.
  *
  * Why: the quality of the served order as the ranker's owners measure it offline; linear
  * gain and the 1 / log2(1 + r) discount are those of scikit-learn's ndcg_score, so the
