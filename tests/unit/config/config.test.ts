@@ -67,7 +67,7 @@ describe('defaults', () => {
   });
 
   it('applies every threshold default when the file omits thresholds (prefault of the section)', () => {
-    expect(c.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999 });
+    expect(c.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999, rankingNoiseZ: 3 });
     expect(c.thresholds.psi).toEqual({ warn: 0.1, critical: 0.25 });
   });
 

@@ -93,8 +93,9 @@ describe('deploy/plumbline.example.yaml', () => {
     const def = parseConfig({ source: { table: ex.source.table }, features: [{ name: 'x' }] });
     // The thresholds section lists every default ("the values below are the defaults").
     expect(ex.thresholds).toEqual(def.thresholds);
-    expect(ex.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999 });
+    expect(ex.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999, rankingNoiseZ: 3 });
     expect(ex.alerting).toEqual(def.alerting);
+    expect(ex.outcome).toEqual(def.outcome);
     expect(ex.schedule).toEqual(def.schedule);
     expect(ex.http).toEqual(def.http);
     expect(ex.store).toEqual(def.store);
