@@ -286,6 +286,10 @@ export const ConfigSchema = z
             quality: positiveInt.default(1),
             within_list: positiveInt.default(1),
             dataset: positiveInt.default(1),
+            /** position_rank_correlation, score_rank_correlation: a pipeline break shows at once. */
+            ranking: positiveInt.default(1),
+            /** mean_reciprocal_rank, ndcg, positive_position_psi: outcomes move with traffic and label noise. */
+            outcome: positiveInt.default(2),
           })
           .prefault({}),
         /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */

@@ -59,7 +59,7 @@ export type DatasetCheck = (typeof DATASET_CHECKS)[number];
 export type CheckName = FeatureCheck | DatasetCheck;
 
 /** Which alerting delay (config `alerting.consecutiveRuns`) a check uses. */
-export type CheckKind = 'drift' | 'quality' | 'within_list' | 'dataset';
+export type CheckKind = 'drift' | 'quality' | 'within_list' | 'dataset' | 'ranking' | 'outcome';
 export const CHECK_KIND: Record<CheckName, CheckKind> = {
   psi: 'drift',
   ks: 'drift',
@@ -82,13 +82,11 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   singleton_list_ratio: 'dataset',
   label_positive_ratio: 'dataset',
   no_positive_list_ratio: 'dataset',
-  // A feature's association with the order breaks with the pipeline, like a within-list rule.
-  position_rank_correlation: 'within_list',
-  score_rank_correlation: 'within_list',
-  // Outcomes move with traffic and label noise: held like drift before they page.
-  mean_reciprocal_rank: 'drift',
-  ndcg: 'drift',
-  positive_position_psi: 'drift',
+  position_rank_correlation: 'ranking',
+  score_rank_correlation: 'ranking',
+  mean_reciprocal_rank: 'outcome',
+  ndcg: 'outcome',
+  positive_position_psi: 'outcome',
 };
 
 /** Thresholds as they were applied to a finding. */
