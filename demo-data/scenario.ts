@@ -144,8 +144,8 @@ export const DEMO_TABLE = 'demo.brindlemoss_impressions';
 export const DEMO_TABLE_JSONB = 'demo.brindlemoss_impressions_jsonb';
 
 /**
- * The demo's five weeks: 28 clean days (2025-02-03 to 2025-03-02), then a week in
- * which something breaks every day. README.md tells the story day by day and what
+ * The demo's five weeks and a day: 28 clean days (2025-02-03 to 2025-03-02), then eight
+ * days in which something breaks every day. README.md tells the story day by day and what
  * Plumbline should report; keep the two in step.
  */
 export const DEMO_FAULTS: FaultPlan[] = [
@@ -165,12 +165,14 @@ export const DEMO_FAULTS: FaultPlan[] = [
   { date: '2025-03-08', kind: 'new_category', feature: 'plant_family', amount: 0.3 },
   // Sat-Sun: a retrained embedding model ships without recalibration.
   { date: '2025-03-08', untilDate: '2025-03-09', kind: 'mean_shift', feature: 'semantic_similarity', amount: 0.6 },
+  // Mon (week six): a refactored join hands out the normalised text scores in reverse order inside each list.
+  { date: '2025-03-10', kind: 'polarity_flip', feature: 'text_match_norm' },
 ];
 
-/** The demo's scenario: five weeks, about 400 lists of about 20 items a day. */
+/** The demo's scenario: five weeks and a day, about 400 lists of about 20 items a day. */
 export const DEMO_SCENARIO: ScenarioOptions = {
   startDate: '2025-02-03',
-  days: 35,
+  days: 36,
   listsPerDay: 400,
   meanListSize: 20,
   seed: 20250203,
