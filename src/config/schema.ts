@@ -260,6 +260,13 @@ export const ConfigSchema = z
       featuresColumn: identifier.optional(),
       /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
       engine: z.enum(['stream', 'pushdown']).default('stream'),
+      /**
+       * Pushdown engine: where the within-list association comes from. `sample`: the per-list
+       * correlations of the whole-list sample the engine reads anyway (exact per list; the day's
+       * mean over the sampled lists, whose standard error enters the noise). `sql`: every list,
+       * in SQL with window functions (exact; costs about one sort of rows x features).
+       */
+      pushdownAssociation: z.enum(['sample', 'sql']).default('sample'),
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
       maxRowsPerDay: positiveInt.default(5_000_000),
       statementTimeoutSeconds: positiveInt.default(900),

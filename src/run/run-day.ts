@@ -102,13 +102,13 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   const t0 = performance.now();
   const { agg, ranking, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, deps.config, plan, date, specs);
-    const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: true, outcome: true })).get(date);
+    const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: deps.config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
     const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
     return { agg, ranking, cols };
   });
   const t1 = performance.now();
   const sample = await buildDayProfile(cols, deps.config, null, threadedProfiler());
-  const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, deps.config, specs), ranking, deps.config, plan.hasLabel);
+  const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, deps.config, specs), ranking, sample, deps.config, plan.hasLabel);
   deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
   return profile;
 }

@@ -34,9 +34,12 @@ const RUN_DATES = FAULTS.map((f) => f.plan.date);
 const RANKING = new Set(['position_rank_correlation', 'score_rank_correlation', 'mean_reciprocal_rank', 'ndcg', 'positive_position_psi']);
 const key = (f: Finding): string => `${f.feature ?? 'dataset'} ${f.check}`;
 
-function configFor(table: string, store: string, engine: 'stream' | 'pushdown', lag = 0): Config {
+type Engine = 'stream' | 'pushdown' | 'pushdown-sql';
+
+function configFor(table: string, store: string, engine: Engine, lag = 0): Config {
   const c = scenarioConfig(table, { storeSchema: store, overrides: { baseline: { window: { type: 'trailing', days: WINDOW } } } });
-  return { ...c, source: { ...c.source, engine }, outcome: { ...c.outcome, labelLagDays: lag } };
+  const source = { ...c.source, engine: engine === 'stream' ? ('stream' as const) : ('pushdown' as const), pushdownAssociation: engine === 'pushdown-sql' ? ('sql' as const) : ('sample' as const) };
+  return { ...c, source, outcome: { ...c.outcome, labelLagDays: lag } };
 }
 
 async function withSource<T>(url: string, fn: (table: string, admin: pg.Client, stores: string[]) => Promise<T>): Promise<T> {
@@ -54,11 +57,16 @@ async function withSource<T>(url: string, fn: (table: string, admin: pg.Client, 
   }
 }
 
-async function bothEngines(url: string): Promise<Record<'stream' | 'pushdown', Map<string, Report>>> {
+/**
+ * The stream engine, the pushdown engine with the association in SQL, and the pushdown
+ * engine with the association from its whole-list sample (which covers these small days
+ * whole: daySampleCap is 28,572 rows here).
+ */
+async function bothEngines(url: string): Promise<Record<Engine, Map<string, Report>>> {
   return withSource(url, async (table, _admin, stores) => {
-    const out = {} as Record<'stream' | 'pushdown', Map<string, Report>>;
-    for (const engine of ['stream', 'pushdown'] as const) {
-      const store = uniqueSchema(`rk_${engine}`);
+    const out = {} as Record<Engine, Map<string, Report>>;
+    for (const engine of ['stream', 'pushdown', 'pushdown-sql'] as const) {
+      const store = uniqueSchema(`rk_${engine.replace('-', '_')}`);
       stores.push(store);
       out[engine] = await runDays(configFor(table, store, engine), url, RUN_DATES);
     }
@@ -100,7 +108,7 @@ function expectEnginesAgree(stream: Map<string, Report>, pushdown: Map<string, R
 
 describe('ranking checks on PGlite (both engines)', () => {
   let lite: EmbeddedPostgres;
-  let reports: Record<'stream' | 'pushdown', Map<string, Report>>;
+  let reports: Record<Engine, Map<string, Report>>;
   beforeAll(async () => {
     lite = await startEmbeddedPostgres();
     reports = await bothEngines(lite.url);
@@ -110,16 +118,20 @@ describe('ranking checks on PGlite (both engines)', () => {
   });
 
   it('the stream engine catches each fault with a ranking check and no marginal one', () => expectCaught(reports.stream, 'stream'));
-  it('the pushdown engine catches each fault too', () => expectCaught(reports.pushdown, 'pushdown'));
+  it('the pushdown engine catches each fault too, with the association in SQL or from its sample', () => {
+    expectCaught(reports.pushdown, 'pushdown');
+    expectCaught(reports['pushdown-sql'], 'pushdown-sql');
+  });
   it('the engines agree on every ranking finding', () => {
     // 12 item-level numeric or binary features x (position, score), the score itself (position), 3 outcomes; per day.
+    expect(expectEnginesAgree(reports.stream, reports['pushdown-sql'])).toBe(3 * (12 * 2 + 1 + 3));
     expect(expectEnginesAgree(reports.stream, reports.pushdown)).toBe(3 * (12 * 2 + 1 + 3));
   });
 });
 
 const server = testDatabaseUrl();
 describe.skipIf(server === undefined)('ranking checks on the PostgreSQL server (PLUMBLINE_TEST_DATABASE_URL)', () => {
-  let reports: Record<'stream' | 'pushdown', Map<string, Report>>;
+  let reports: Record<Engine, Map<string, Report>>;
   beforeAll(async () => {
     reports = await bothEngines(server!);
   }, 300_000);
@@ -127,8 +139,10 @@ describe.skipIf(server === undefined)('ranking checks on the PostgreSQL server (
   it('both engines catch each fault with a ranking check and no marginal one', () => {
     expectCaught(reports.stream, 'stream');
     expectCaught(reports.pushdown, 'pushdown');
+    expectCaught(reports['pushdown-sql'], 'pushdown-sql');
   });
   it('the engines agree on every ranking finding', () => {
+    expect(expectEnginesAgree(reports.stream, reports['pushdown-sql'])).toBe(3 * (12 * 2 + 1 + 3));
     expect(expectEnginesAgree(reports.stream, reports.pushdown)).toBe(3 * (12 * 2 + 1 + 3));
   });
 

@@ -48,6 +48,7 @@ describe('defaults', () => {
       table: 'shop.results',
       columns: { snapshotDate: 'snapshot_date', listId: 'list_id', itemId: 'item_id', position: 'position' },
       engine: 'stream',
+      pushdownAssociation: 'sample',
       maxRowsPerDay: 5_000_000,
       statementTimeoutSeconds: 900,
     });
