@@ -180,8 +180,8 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (m < 3) continue;
-    averageRanksInto(sp.x, m, sp.ranks.sorted, sp.rx);
-    if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank.subarray(e0, e0 + n), n));
+    averageRanksInto(sp.x, m, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(m));
+    if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank, n, e0));
     else {
       ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
       addRho(position, rhoFromRanks(sp.rx, sp.ry, m));
@@ -189,7 +189,7 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
     if (score === null) continue;
     const s = served.score!;
     if (m === n && served.scoreComplete![l] === 1) {
-      addRho(score, rhoFromRanks(sp.rx, served.scoreRank!.subarray(e0, e0 + n), n));
+      addRho(score, rhoFromRanks(sp.rx, served.scoreRank!, n, e0));
       continue;
     }
     let q = 0;
@@ -203,8 +203,8 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (q < 3) continue;
-    averageRanksInto(sp.x, q, sp.ranks.sorted, sp.rx);
-    averageRanksInto(sp.y, q, sp.ranks.sorted, sp.ry);
+    averageRanksInto(sp.x, q, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(q));
+    averageRanksInto(sp.y, q, sp.ranks.sorted, sp.ry, sp.ranks.sortedView(q));
     addRho(score, rhoFromRanks(sp.rx, sp.ry, q));
   }
   return { position, score };

@@ -19,10 +19,11 @@ import { StatsInputError } from './errors.ts';
  *
  * Values must be finite (NaN has no order). `sorted` and `out` need length >= n.
  */
-export function averageRanksInto(values: ArrayLike<number>, n: number, sorted: Float64Array, out: Float64Array): void {
+export function averageRanksInto(values: ArrayLike<number>, n: number, sorted: Float64Array, out: Float64Array, view?: Float64Array): void {
   if (sorted.length < n || out.length < n || values.length < n) throw new StatsInputError(`averageRanksInto requires arrays of length >= n = ${n}`);
   for (let i = 0; i < n; i++) sorted[i] = values[i]!;
-  const s = sorted.subarray(0, n).sort();
+  // `view`, when given, is sorted.subarray(0, n) made once by the caller (no allocation per list).
+  const s = (view !== undefined && view.length === n && view.buffer === sorted.buffer ? view : sorted.subarray(0, n)).sort();
   for (let i = 0; i < n; i++) {
     const v = values[i]!;
     let lo = 0;
@@ -48,16 +49,16 @@ export function averageRanksInto(values: ArrayLike<number>, n: number, sorted: F
  * 1..n up to ties, so both means are (n + 1) / 2): Spearman's rho. Sums of half-integers
  * are exact in float64 for lists far longer than any result list, so the only rounding is
  * in the final division and square root. Returns null when either side is constant
- * (rho undefined). O(n).
+ * (rho undefined). `ryOffset`: ry's ranks start there (a list inside a day-long array). O(n).
  */
-export function rhoFromRanks(rx: ArrayLike<number>, ry: ArrayLike<number>, n: number): number | null {
+export function rhoFromRanks(rx: ArrayLike<number>, ry: ArrayLike<number>, n: number, ryOffset = 0): number | null {
   const m = (n + 1) / 2;
   let sxy = 0;
   let sxx = 0;
   let syy = 0;
   for (let i = 0; i < n; i++) {
     const a = rx[i]! - m;
-    const b = ry[i]! - m;
+    const b = ry[ryOffset + i]! - m;
     sxy += a * b;
     sxx += a * a;
     syy += b * b;
@@ -73,12 +74,20 @@ export class RankScratch {
   sorted = new Float64Array(64);
   rx = new Float64Array(64);
   ry = new Float64Array(64);
+  private views = new Map<number, Float64Array>();
   ensure(n: number): void {
     if (this.sorted.length >= n) return;
     const len = Math.max(n, this.sorted.length * 2);
     this.sorted = new Float64Array(len);
     this.rx = new Float64Array(len);
     this.ry = new Float64Array(len);
+    this.views.clear();
+  }
+  /** sorted.subarray(0, n), made once per length (lists of a day have few distinct lengths). */
+  sortedView(n: number): Float64Array {
+    let v = this.views.get(n);
+    if (v === undefined) this.views.set(n, (v = this.sorted.subarray(0, n)));
+    return v;
   }
 }
 
@@ -89,8 +98,8 @@ export class RankScratch {
 export function spearmanInto(x: ArrayLike<number>, y: ArrayLike<number>, n: number, scratch: RankScratch): number | null {
   if (n < 3) return null;
   scratch.ensure(n);
-  averageRanksInto(x, n, scratch.sorted, scratch.rx);
-  averageRanksInto(y, n, scratch.sorted, scratch.ry);
+  averageRanksInto(x, n, scratch.sorted, scratch.rx, scratch.sortedView(n));
+  averageRanksInto(y, n, scratch.sorted, scratch.ry, scratch.sortedView(n));
   return rhoFromRanks(scratch.rx, scratch.ry, n);
 }
 

@@ -43,14 +43,21 @@ function rng(seed: number): () => number {
   };
 }
 
-/** Rows in random order; each feature a noisy function of the position, the score exactly decreasing with it. */
+/**
+ * Rows list by list, as a snapshot table written per query usually is, but in no particular
+ * order inside a list (the served order is recovered by sorting on position); each feature a
+ * noisy function of the position, the score exactly decreasing with it.
+ */
 function columns(rows: number): DayColumns {
   const r = rng(42);
   const lists = Math.ceil(rows / LIST_SIZE);
   const order = Int32Array.from({ length: rows }, (_, i) => i);
-  for (let i = rows - 1; i > 0; i--) {
-    const j = Math.floor(r() * (i + 1));
-    [order[i], order[j]] = [order[j]!, order[i]!];
+  for (let start = 0; start < rows; start += LIST_SIZE) {
+    const end = Math.min(rows, start + LIST_SIZE);
+    for (let i = end - 1; i > start; i--) {
+      const j = start + Math.floor(r() * (i - start + 1));
+      [order[i], order[j]] = [order[j]!, order[i]!];
+    }
   }
   const listOf = new Int32Array(rows);
   const position = new Int32Array(rows);
