@@ -78,7 +78,13 @@ function correlationFinding(config: Config, f: FeatureConfig, check: 'position_r
     summary:
       `mean within-list rank correlation with the ${against} ${fmt(s.current)} (baseline ${fmt(s.baselineMean)}, change ${s.change >= 0 ? '+' : ''}${fmt(s.change)}, ` +
       `${fmt(s.z)} x noise); ${pct(curOpposite)} of lists against the baseline's sign (baseline ${pct(baseOpposite)}); ${status} at |change| >= ${t.warn} / ${t.critical} beyond ${config.thresholds.rankingNoiseZ} x noise`,
-    evidence: { ...shiftEvidence(s, cur.count), oppositeSignShare: curOpposite, baselineOppositeSignShare: baseOpposite },
+    evidence: {
+      ...shiftEvidence(s, cur.count),
+      oppositeSignShare: curOpposite,
+      baselineOppositeSignShare: baseOpposite,
+      // The pushdown engine's default: the day's lists are those of its whole-list sample.
+      ...(config.source.engine === 'pushdown' && config.source.pushdownAssociation === 'sample' ? { listsFrom: 'whole-list sample' } : {}),
+    },
   };
 }
 

@@ -6,6 +6,7 @@
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
+import { main as rankingBench } from './ranking.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -15,3 +16,6 @@ await runBench();
 console.log('');
 console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
 await pushdownBench();
+console.log('');
+console.log('== the ranking checks: stream profile with and without, pushdown ranking pass (tests/bench/ranking.bench.ts)');
+await rankingBench();
