@@ -4,12 +4,14 @@
  * errors to exit codes (0 ok, 1 --fail-on matched or a bug, 2 config or usage, 3 source or
  * store unavailable). Nothing else in Plumbline reads argv or exits the process.
  */
+import { realpathSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
 import { parseArgs } from 'node:util';
-import { envSetting, loadConfigFile, maskUrl } from './config/index.ts';
+import { connectionSummary, envSetting, loadConfigFile, maskUrl } from './config/index.ts';
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
 import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
 import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
-import { configFingerprint, dateRange, isIsoDate, runDay } from './run/index.ts';
+import { checkSource, configFingerprint, dateRange, isIsoDate, memoryEstimate, runDay } from './run/index.ts';
 import { migrate } from './store/index.ts';
 import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
@@ -17,7 +19,8 @@ import { VERSION } from './version.ts';
 const USAGE = `plumbline ${VERSION}: watches ranking-feature snapshots in PostgreSQL
 
 Usage:
-  plumbline check-config FILE                 validate a config file and print it resolved
+  plumbline check-config FILE [--connect]     validate a config file and print it resolved; --connect also
+                                              checks the source table, columns and keys in the database
   plumbline migrate  --config FILE            create or upgrade Plumbline's own tables
   plumbline run      --config FILE --date YYYY-MM-DD [--format table|json] [--fail-on warn|critical] [--all]
   plumbline backfill --config FILE --from YYYY-MM-DD --to YYYY-MM-DD [--force]
@@ -42,7 +45,10 @@ const OPTIONS = {
   help: { type: 'boolean', short: 'h' },
   version: { type: 'boolean' },
   port: { type: 'string' },
+  connect: { type: 'boolean' },
 } as const;
+
+const LOG_LEVELS: readonly LogLevel[] = ['debug', 'info', 'warn', 'error'];
 
 type Values = ReturnType<typeof parseArgs<{ options: typeof OPTIONS; allowPositionals: true }>>['values'];
 
@@ -99,18 +105,34 @@ export async function main(argv: string[]): Promise<number> {
     process.stdout.write(USAGE);
     return command === undefined && values.help !== true ? EXIT.usage : EXIT.ok;
   }
-  const log = createLogger((envSetting('PLUMBLINE_LOG_LEVEL') as LogLevel | undefined) ?? 'info');
+  const level = envSetting('PLUMBLINE_LOG_LEVEL') ?? 'info';
+  if (!LOG_LEVELS.includes(level as LogLevel)) throw new ConfigError(`PLUMBLINE_LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${JSON.stringify(level)}`);
+  const log = createLogger(level as LogLevel);
 
   switch (command) {
     case 'check-config': {
       const path = configPath(values, rest);
       const config = loadConfigFile(path);
+      if (values.connect === true) {
+        // The same catalogue checks a run starts with, every problem listed (exit 2 when any).
+        const rt = openRuntime(config, log);
+        try {
+          const problems = await checkSource(rt.source, config);
+          if (problems.length > 0) throw new ConfigError(`the source does not match ${path} (${problems.length} problem${problems.length === 1 ? '' : 's'})`, problems);
+        } finally {
+          await rt.close();
+        }
+      }
       process.stdout.write(`# ${path} is valid. Resolved, with defaults (fingerprint ${configFingerprint(config)}):\n`);
       // Secrets are masked wherever config is printed (an Alertmanager URL may carry credentials).
       const shown = config.alerting.alertmanagerUrl === undefined ? config : { ...config, alerting: { ...config.alerting, alertmanagerUrl: maskUrl(config.alerting.alertmanagerUrl) } };
       process.stdout.write(`${JSON.stringify(shown, null, 2)}\n`);
-      const env = ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => `# ${k}: ${process.env[k] ? maskUrl(process.env[k]!) : process.env[`${k}_FILE`] ? `from file ${process.env[`${k}_FILE`]}` : '(not set)'}`);
-      process.stdout.write(`${env.join('\n')}\n`);
+      process.stdout.write(`${connectionSummary().map((l) => `# ${l}`).join('\n')}\n`);
+      const mem = memoryEstimate(config);
+      process.stdout.write(
+        `# memory at the cap: about ${Math.ceil(mem.bytes / 2 ** 20)} MiB (${config.source.engine} engine, ${mem.rows} rows x ${mem.features} features; README "Sizing")\n`,
+      );
+      if (values.connect === true) process.stdout.write('# source: table, columns, types and jsonb keys match the config\n');
       return EXIT.ok;
     }
     case 'migrate':
@@ -197,27 +219,53 @@ interface DemoModule {
   runDemo(options: { log: Logger; port: number | undefined; openRuntime: typeof openRuntime }): Promise<number>;
 }
 
-function report(err: unknown): number {
+function report(err: unknown, debug: boolean): number {
   if (err instanceof ConfigError) {
     process.stderr.write(`plumbline: ${err.message}\n`);
     for (const p of err.problems) process.stderr.write(`  - ${p}\n`);
   } else if (err instanceof StoreError || err instanceof SourceError) {
     process.stderr.write(`plumbline: ${err.message}\n`);
   } else {
-    process.stderr.write(`plumbline: unexpected error: ${err instanceof Error ? (err.stack ?? err.message) : String(err)}\n`);
+    // A stack trace is for whoever debugs Plumbline, not for its users: shown only at
+    // PLUMBLINE_LOG_LEVEL=debug.
+    const detail = err instanceof Error ? (debug ? (err.stack ?? err.message) : `${err.name}: ${err.message}`) : String(err);
+    process.stderr.write(`plumbline: unexpected error: ${detail}\n`);
+    if (!debug) process.stderr.write('plumbline: run again with PLUMBLINE_LOG_LEVEL=debug for the stack trace\n');
   }
   return exitCodeFor(err);
 }
 
-// Run when executed directly (node dist/cli.js, tsx src/cli.ts), not when imported by tests.
-const invokedDirectly = process.argv[1] !== undefined && /cli\.(ts|js)$/.test(process.argv[1]);
-if (invokedDirectly) {
+/**
+ * Whether this module is the program (node dist/cli.js, tsx src/cli.ts, or the `plumbline`
+ * command, which npm installs as a symbolic link to dist/cli.js under any name), rather
+ * than imported by a test. Comparing real paths follows the link.
+ */
+function isMainModule(): boolean {
+  const script = process.argv[1];
+  if (script === undefined) return false;
+  try {
+    return realpathSync(script) === realpathSync(fileURLToPath(import.meta.url));
+  } catch {
+    return false;
+  }
+}
+
+if (isMainModule()) {
+  const debug = envSetting('PLUMBLINE_LOG_LEVEL') === 'debug';
+  // An error nothing caught (in a callback or a forgotten promise) ends the process as Node
+  // would, with exit code 1, but with one line instead of a stack trace (unless debug).
+  const fatal = (err: unknown): void => {
+    report(err, debug);
+    process.exit(EXIT.bug);
+  };
+  process.on('uncaughtException', fatal);
+  process.on('unhandledRejection', fatal);
   main(process.argv.slice(2)).then(
     (code) => {
       process.exitCode = code;
     },
     (err: unknown) => {
-      process.exitCode = report(err);
+      process.exitCode = report(err, debug);
     },
   );
 }

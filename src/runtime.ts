@@ -18,7 +18,8 @@ export interface Runtime {
 }
 
 /** Pools and store for a config; connection strings come from the environment only. */
-export function openRuntime(config: Config, log: Logger, env: Readonly<Record<string, string | undefined>> = process.env): Runtime {
+/** `env` defaults to the process environment, which config/ reads. */
+export function openRuntime(config: Config, log: Logger, env?: Readonly<Record<string, string | undefined>>): Runtime {
   const conn = connectionsFromEnv(env);
   const onError = (which: string) => (err: Error) => log.warn(`${which} connection error`, errorFields(err));
   const source = createPool({ url: conn.sourceUrl, applicationName: 'plumbline-source', statementTimeoutMs: config.source.statementTimeoutSeconds * 1000, onError: onError('source') });

@@ -5,7 +5,7 @@
  * date's findings, which live in the store, so restarts, re-runs and back-fills agree.
  */
 import type { Config } from '../config/index.ts';
-import { CHECK_KIND, type Finding } from '../report/contract.ts';
+import { CHECK_KIND, type Finding } from '../report/index.ts';
 
 export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule'>): string {
   return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}`;

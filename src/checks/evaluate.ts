@@ -7,7 +7,7 @@
  */
 import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
 import { thinSorted, type BaselineProfile, type CategoricalProfile, type DatasetCounts, type DayProfile, type NumericProfile, type WithinListCounts } from '../profile/index.ts';
-import type { BinEvidence, CheckName, Finding, Status } from '../report/contract.ts';
+import type { BinEvidence, CheckName, Finding, Status } from '../report/index.ts';
 import {
   benjaminiHochberg,
   binCountsSorted,

@@ -1,6 +1,6 @@
 /** Thresholds -> status. */
 import type { AboveThreshold, BandThreshold } from '../config/index.ts';
-import type { AppliedThresholds, Status } from '../report/contract.ts';
+import type { AppliedThresholds, Status } from '../report/index.ts';
 
 export function statusAbove(score: number, t: AboveThreshold): Status {
   if (score >= t.critical) return 'critical';

@@ -1,2 +1,2 @@
 export * from './schema.ts';
-export { loadConfigFile, parseConfig, formatIssues, formatPath, connectionsFromEnv, maskUrl, envSetting, type Connections } from './load.ts';
+export { loadConfigFile, parseConfig, formatIssues, formatPath, connectionsFromEnv, maskUrl, envSetting, connectionSummary, type Connections } from './load.ts';

@@ -81,7 +81,15 @@ export function loadConfigFile(path: string): Config {
     const problems = doc.errors.map((e) => `line ${e.linePos?.[0]?.line ?? '?'}, column ${e.linePos?.[0]?.col ?? '?'}: ${e.message.split('\n')[0]}`);
     throw new ConfigError(`${path} is not valid YAML`, problems);
   }
-  return parseConfig(doc.toJS(), path);
+  let raw: unknown;
+  try {
+    // maxAliasCount is the yaml library's guard against alias bombs (a few lines that expand
+    // to billions of nodes); 100 is its default, stated here on purpose.
+    raw = doc.toJS({ maxAliasCount: 100 });
+  } catch (cause) {
+    throw new ConfigError(`${path} is not valid YAML`, [`${(cause as Error).message.split('\n')[0]}`], { cause });
+  }
+  return parseConfig(raw, path);
 }
 
 /** Connection settings; secrets, so never printed unmasked. */
@@ -142,4 +150,16 @@ export function maskUrl(url: string): string {
 export function envSetting(name: string, env: Env = process.env): string | undefined {
   const v = env[name];
   return v === undefined || v === '' ? undefined : v;
+}
+
+/**
+ * One line per connection setting for printing: the URL masked, or the file it is read
+ * from (not read out), or "(not set)".
+ */
+export function connectionSummary(env: Env = process.env): string[] {
+  return ['PLUMBLINE_SOURCE_URL', 'PLUMBLINE_STORE_URL'].map((k) => {
+    const direct = envSetting(k, env);
+    const file = envSetting(`${k}_FILE`, env);
+    return `${k}: ${direct !== undefined ? maskUrl(direct) : file !== undefined ? `from file ${file}` : '(not set)'}`;
+  });
 }

@@ -33,6 +33,25 @@ const isoDate = z
 
 const positiveInt = z.number().int().positive();
 
+/**
+ * Upper bounds of durations and counts, so that a typo fails at load time with its path
+ * instead of breaking at run time. Node's timers take at most 2^31 - 1 ms (about 24.8
+ * days; a longer delay fires after 1 ms, again and again), and PostgreSQL's
+ * statement_timeout is an int of milliseconds (at most 2147483647).
+ */
+const INT32_MAX_MS = 2_147_483_647;
+export const LIMITS = {
+  statementTimeoutSeconds: Math.floor(INT32_MAX_MS / 1000),
+  /** Rows of one day the stream engine holds in memory (about 40 GB at 50 features, see README "Sizing"). */
+  maxRowsPerDay: 100_000_000,
+  /** A timer Plumbline sets from the config: at most a day, far below Node's limit. */
+  timerSeconds: 86_400,
+  deadlineMinutes: 7 * 24 * 60,
+  /** Daily runs: a year. */
+  runs: 366,
+} as const;
+const countOfRuns = positiveInt.max(LIMITS.runs, `must be at most ${LIMITS.runs} (runs are daily: a year)`);
+
 function isRecord(v: unknown): v is Record<string, unknown> {
   return typeof v === 'object' && v !== null && !Array.isArray(v);
 }
@@ -268,8 +287,11 @@ export const ConfigSchema = z
        */
       pushdownAssociation: z.enum(['sample', 'sql']).default('sample'),
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
-      maxRowsPerDay: positiveInt.default(5_000_000),
-      statementTimeoutSeconds: positiveInt.default(900),
+      maxRowsPerDay: positiveInt.max(LIMITS.maxRowsPerDay, `must be at most ${LIMITS.maxRowsPerDay} rows (the stream engine holds the day in memory)`).default(2_000_000),
+      /** Server-side statement_timeout of source reads; PostgreSQL takes at most 2147483647 ms. */
+      statementTimeoutSeconds: positiveInt
+        .max(LIMITS.statementTimeoutSeconds, `must be at most ${LIMITS.statementTimeoutSeconds} seconds (PostgreSQL's statement_timeout limit, 2147483647 ms)`)
+        .default(900),
     }),
     features: z.array(FeatureSchema).min(1, 'declare at least one feature'),
     baseline: z
@@ -280,7 +302,7 @@ export const ConfigSchema = z
         /** Number of quantile bins for PSI (point masses and nulls get bins of their own). */
         bins: positiveInt.min(2).max(100).default(10),
         /** Fewest baseline days with data before drift checks run. */
-        minDays: positiveInt.default(1),
+        minDays: countOfRuns.default(1),
       })
       .prefault({}),
     thresholds: ThresholdsSchema,
@@ -289,14 +311,14 @@ export const ConfigSchema = z
         /** Consecutive runs at or above a level before a finding alerts, by kind of check. */
         consecutiveRuns: z
           .strictObject({
-            drift: positiveInt.default(2),
-            quality: positiveInt.default(1),
-            within_list: positiveInt.default(1),
-            dataset: positiveInt.default(1),
+            drift: countOfRuns.default(2),
+            quality: countOfRuns.default(1),
+            within_list: countOfRuns.default(1),
+            dataset: countOfRuns.default(1),
             /** position_rank_correlation, score_rank_correlation: a pipeline break shows at once. */
-            ranking: positiveInt.default(1),
+            ranking: countOfRuns.default(1),
             /** mean_reciprocal_rank, ndcg, positive_position_psi: outcomes move with traffic and label noise. */
-            outcome: positiveInt.default(2),
+            outcome: countOfRuns.default(2),
           })
           .prefault({}),
         /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */
@@ -317,7 +339,7 @@ export const ConfigSchema = z
          * Wait before retrying a failed run (`serve`), doubled after each further failure, at
          * most one hour. Failures that are not connection trouble (bad config, a bug) wait 20 times as long.
          */
-        retryBaseSeconds: z.number().positive().max(3600).default(15),
+        retryBaseSeconds: z.number().min(1, 'must be at least 1 second').max(3600, 'must be at most 3600 seconds (an hour)').default(15),
         readiness: z
           .strictObject({
             /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
@@ -325,9 +347,9 @@ export const ConfigSchema = z
             /** Optional marker table: the day is ready once a row with that date exists. */
             markerTable: qualifiedName.optional(),
             markerDateColumn: identifier.default('snapshot_date'),
-            retryEverySeconds: positiveInt.default(300),
+            retryEverySeconds: positiveInt.max(LIMITS.timerSeconds, `must be at most ${LIMITS.timerSeconds} seconds (a day)`).default(300),
             /** After this long past the scheduled time, a missing day becomes a critical finding. */
-            deadlineMinutes: positiveInt.default(360),
+            deadlineMinutes: positiveInt.max(LIMITS.deadlineMinutes, `must be at most ${LIMITS.deadlineMinutes} minutes (a week)`).default(360),
           })
           .prefault({}),
       })

@@ -1,7 +1,7 @@
 /**
  * PostgreSQL connections: one pool per database, with the settings every session needs
  * (application_name, timeouts), and the transaction helpers the rest of Plumbline uses.
- * This folder is the only importer of `pg`.
+ * This folder is the only importer of `pg` (and of pg-copy-streams, in copy.ts).
  */
 import pg from 'pg';
 

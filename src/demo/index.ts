@@ -7,9 +7,9 @@
  * The demo runs from a source checkout (it needs demo-data/); the production build
  * leaves it out.
  */
-import pg from 'pg';
 import { fileURLToPath } from 'node:url';
 import { loadConfigFile, type Config } from '../config/index.ts';
+import { createPool } from '../db/index.ts';
 import type { Logger } from '../log.ts';
 import { createLogger } from '../log.ts';
 import type { Report } from '../report/index.ts';
@@ -57,14 +57,16 @@ export async function runDemo(options: DemoOptions): Promise<number> {
     const base = loadConfigFile(CONFIG_PATH);
     const config: Config = { ...base, http: { ...base.http, port: options.port ?? base.http.port } };
 
-    const loader = new pg.Client({ connectionString: db.url });
-    await loader.connect();
+    // One connection of its own for loading (no statement timeout: the load is long).
+    const loaderPool = createPool({ url: db.url, applicationName: 'plumbline-demo-loader', statementTimeoutMs: 0, max: 1 });
+    const loader = await loaderPool.connect();
     const dates = scenarioDates(DEMO_SCENARIO);
     out(`loading the scenario: ${dates.length} days (${dates[0]} .. ${dates[dates.length - 1]}) into ${config.source.table} ...`);
     try {
       await loadScenario(loader, { table: config.source.table, layout: 'wide', scenario: DEMO_SCENARIO });
     } finally {
-      await loader.end();
+      loader.release();
+      await loaderPool.end();
     }
     out(`loaded in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
 

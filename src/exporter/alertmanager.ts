@@ -14,7 +14,7 @@
  * Never throws: network errors, timeouts and non-2xx answers come back in the result, so a
  * push can never fail a run.
  */
-import type { Finding, Report } from '../report/contract.ts';
+import type { Finding, Report } from '../report/index.ts';
 import { alertNameFor, DEFAULT_RUNBOOK_URL, runbookUrl, severityFor } from './alerts.ts';
 
 /** The identifying labels of one pushed alert. */

@@ -4,7 +4,7 @@
  * `severity` and runbook link for a finding, so the mapping lives here once; the deploy tests
  * check that the rule file agrees with it.
  */
-import { CHECK_KIND, type CheckKind, type CheckName, type Status } from '../report/contract.ts';
+import { CHECK_KIND, type CheckKind, type CheckName, type Status } from '../report/index.ts';
 
 /** Alerts raised from findings, by kind of check. `snapshot_missing` has its own alert. */
 export const FINDING_ALERT_OF_KIND: Readonly<Record<CheckKind, string>> = {

@@ -16,7 +16,7 @@
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { ConfigError } from '../errors.ts';
-import type { Report } from '../report/contract.ts';
+import type { Report } from '../report/index.ts';
 import type { ExpositionFormat, PlumblineMetrics } from './metrics.ts';
 
 export interface PageResult {

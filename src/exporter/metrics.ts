@@ -11,7 +11,7 @@
  * full list, with meanings, is in deploy/METRICS.md.
  */
 import { Counter, Gauge, Registry, collectDefaultMetrics, openMetricsContentType, prometheusContentType, type OpenMetricsContentType } from 'prom-client';
-import { STATUS_LEVEL, type Finding, type Report } from '../report/contract.ts';
+import { STATUS_LEVEL, type Finding, type Report } from '../report/index.ts';
 import type { RunStats } from '../store/index.ts';
 
 /**

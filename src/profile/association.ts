@@ -4,10 +4,10 @@
  * position and with the model score inside each list, and the outcome of the served order
  * from labels. Pure: typed arrays in, mergeable sums out.
  */
-import { NULL_POSITION } from '../source/index.ts';
+import { NULL_POSITION, type AssociationCounts, type OutcomeCounts, type RankCorrelationSums } from './types.ts';
 import { POSITION_BUCKET_UPPER, RankScratch, averageRanksInto, ndcgAtK, positionBucket, reciprocalRank, rhoFromRanks } from '../stats/index.ts';
 import type { ListGrouping } from './day.ts';
-import type { AssociationCounts, OutcomeCounts, RankCorrelationSums } from './types.ts';
+
 
 /**
  * Each list's rows with a position, sorted by position (entries e of list l are

@@ -3,8 +3,6 @@
  * counts and the sorted finite values of every numeric feature. Pure: no I/O.
  */
 import type { Config } from '../config/index.ts';
-import type { DayColumns } from '../source/index.ts';
-import { NULL_POSITION } from '../source/index.ts';
 import {
   binCountsSorted,
   distinctCountSorted,
@@ -17,7 +15,7 @@ import {
   type QualityCounts,
 } from '../stats/index.ts';
 import { featureAssociation, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
-import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+import { NULL_POSITION, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
 
 /** Lists longer than this share the last list-size bin. */
 export const MAX_LIST_SIZE_BIN = 100;

@@ -1,4 +1,5 @@
-export type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+export type { BaselineProfile, CategoricalColumn, CategoricalProfile, DatasetCounts, DayColumns, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+export { NULL_POSITION } from './types.ts';
 export { buildDayProfile, groupByList, countsOverBins, profileOnThisThread, MAX_LIST_SIZE_BIN, type ListGrouping, type NumericProfiler } from './day.ts';
 export { threadedProfiler, PARALLEL_MIN_ROWS } from './threads.ts';
 export { mergeBaseline, capDayProfile, thinSorted, EMPTY_DATASET, FINE_BINS, refineBins, fineBinsFromSorted, withFineBins, type BaselineOptions } from './baseline.ts';

@@ -18,51 +18,85 @@ export const PARALLEL_MIN_ROWS = 200_000;
 // The worker has the same extension as this module: .ts under tsx, .js in the build.
 const WORKER_URL = new URL(`./worker${extname(fileURLToPath(import.meta.url))}`, import.meta.url);
 
-function runWorker(req: ProfileRequest): Promise<NumericProfile[]> {
-  return new Promise((resolve, reject) => {
-    // Under tsx the worker must register the TypeScript loader itself (hooks are per thread).
-    const worker = WORKER_URL.pathname.endsWith('.ts')
-      ? new Worker(`import('tsx/esm/api').then((m) => { m.register(); return import(${JSON.stringify(WORKER_URL.href)}); })`, { eval: true })
-      : new Worker(WORKER_URL);
+/**
+ * A worker for `url`. A .ts worker (running from a checkout under tsx) registers the
+ * TypeScript loader itself, since loader hooks are per thread. The loader is resolved from
+ * this module, not from the working directory: an eval'd worker resolves bare names
+ * against the current folder, which is not the checkout when Plumbline is started from
+ * elsewhere. The compiled build (.js) needs no loader at all.
+ */
+function startWorker(url: URL): Worker {
+  if (!url.pathname.endsWith('.ts')) return new Worker(url);
+  const loader = import.meta.resolve('tsx/esm/api');
+  return new Worker(`import(${JSON.stringify(loader)}).then((m) => { m.register(); return import(${JSON.stringify(url.href)}); })`, { eval: true });
+}
+
+/**
+ * Profiles one share of the features on a worker. Settles exactly once: with the worker's
+ * answer, or with an error when the worker reports one, throws, or exits without answering
+ * (killed, out of memory, process.exit in a dependency), so a dead worker fails the run
+ * instead of leaving it waiting.
+ */
+export function runWorker(req: ProfileRequest, url: URL = WORKER_URL): { done: Promise<NumericProfile[]>; stop(): void } {
+  const worker = startWorker(url);
+  const done = new Promise<NumericProfile[]>((resolve, reject) => {
+    let settled = false;
+    const settle = (fn: () => void): void => {
+      if (settled) return;
+      settled = true;
+      fn();
+      void worker.terminate();
+    };
     worker.once('message', (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }) => {
-      void worker.terminate();
-      if (msg.ok) resolve(msg.profiles);
-      else reject(new Error(`profile worker failed: ${msg.error}`));
+      settle(() => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
     });
-    worker.once('error', (err) => {
-      void worker.terminate();
-      reject(err);
-    });
+    worker.once('messageerror', (err) => settle(() => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err }))));
+    worker.once('error', (err) => settle(() => reject(new Error(`profile worker failed: ${err.message}`, { cause: err }))));
+    worker.once('exit', (code) => settle(() => reject(new Error(`profile worker stopped (exit code ${code}) before it sent the profiles`))));
     worker.postMessage(req);
   });
+  return { done, stop: () => void worker.terminate() };
 }
 
 /**
  * A profiler that uses up to `threads` threads (default: the machine's cores). Features
- * are dealt round-robin, the first share on this thread.
+ * are dealt round-robin, the first share on this thread. `workerUrl` is for tests only.
  */
-export function threadedProfiler(threads: number = availableParallelism()): NumericProfiler {
+export function threadedProfiler(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): NumericProfiler {
   return async (cols, g, indexes, config, bins) => {
     if (threads <= 1 || cols.rows < PARALLEL_MIN_ROWS || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
     const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
     indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
     const remote = shares.slice(1).map((share) =>
-      runWorker({
-        lists: cols.lists,
-        grouping: g,
-        jobs: share.map((fi) => {
-          const feature = config.features[fi]!;
-          const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
-          // The worker holds the shared column now; this thread lets go of it.
-          releaseColumn(cols, fi);
-          return job;
-        }),
-      }),
+      runWorker(
+        {
+          lists: cols.lists,
+          grouping: g,
+          jobs: share.map((fi) => {
+            const feature = config.features[fi]!;
+            const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+            // The worker holds the shared column now; this thread lets go of it.
+            releaseColumn(cols, fi);
+            return job;
+          }),
+        },
+        workerUrl,
+      ),
     );
-    const local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+    // Observed at once: a worker that fails while this thread profiles its own share must
+    // not become an unhandled rejection (which would end the process instead of the run).
+    const all = Promise.all(remote.map((r) => r.done));
+    all.catch(() => remote.forEach((r) => r.stop()));
+    let local: NumericProfile[];
+    try {
+      local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+    } catch (err) {
+      remote.forEach((r) => r.stop());
+      throw err;
+    }
+    const done = await all;
     const results = new Map<number, NumericProfile>();
     shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
-    const done = await Promise.all(remote);
     shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
     return indexes.map((fi) => results.get(fi)!);
   };

@@ -136,3 +136,39 @@ export interface RankingDay {
   outcome: OutcomeCounts | null;
   association: Record<string, AssociationCounts>;
 }
+
+/** A categorical column: codes into a dictionary of the day's values. */
+export interface CategoricalColumn {
+  codes: Int32Array; // -1 for null
+  dictionary: string[];
+}
+
+/**
+ * One day of the source as columns (read by source/read-day.ts, profiled by day.ts): per
+ * feature typed arrays and per-row list indexes, never one object per row.
+ */
+export interface DayColumns {
+  date: string;
+  rows: number;
+  /** Rows of the day before whole-list sampling. */
+  totalRows: number;
+  sampled: boolean;
+  /** List index per row (0..lists-1), -1 when the list id is null. */
+  listOf: Int32Array;
+  lists: number;
+  /** 53-bit hash of the item id per row (NaN for a null id); only compared within a list. */
+  itemHash: Float64Array;
+  /** Position per row; NULL_POSITION when null. */
+  position: Int32Array;
+  /** Label per row, NaN when null; null when no label column is configured. */
+  label: Float64Array | null;
+  /** Per config feature index: numeric values (NaN where missing) or null for categorical. */
+  numeric: (Float64Array | null)[];
+  /** Per config feature index: missing codes, or null when nothing was missing. */
+  missing: (Uint8Array | null)[];
+  categorical: (CategoricalColumn | null)[];
+}
+
+/** The position of a row whose position is null. */
+export const NULL_POSITION = -2147483648;
+

@@ -6,7 +6,7 @@
  * Privacy: a report holds aggregates only. No list id, item id or query text appears in
  * a finding or its evidence.
  */
-import type { WithinListRule } from '../config/schema.ts';
+import type { WithinListRule } from '../config/index.ts';
 
 export const REPORT_SCHEMA_VERSION = 1 as const;
 

@@ -13,7 +13,7 @@ import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '.
 import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
 import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
-import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/contract.ts';
+import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/index.ts';
 import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, readRankingAggregates, withRankingAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
 import { addDays, baselineDates } from './dates.ts';
 

@@ -1,4 +1,4 @@
-export { planSource, checkJsonbKeys, type SourcePlan, type FeaturePlan } from './plan.ts';
+export { planSource, checkJsonbKeys, sourceProblems, type SourcePlan, type FeaturePlan } from './plan.ts';
 export { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
 export { readDay, countDays, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
 export {

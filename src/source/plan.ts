@@ -145,7 +145,7 @@ function literalKey(key: string): string {
  * always a spelling mistake in the config. (A key that disappears on a later day is a
  * finding, not a config error.)
  */
-export async function checkJsonbKeys(client: PoolClient, config: Config, plan: SourcePlan): Promise<void> {
+export async function checkJsonbKeys(client: PoolClient, config: Config, plan: Pick<SourcePlan, 'relation' | 'dateColumn'>): Promise<void> {
   const jsonbColumn = config.source.featuresColumn;
   const keyed = config.features.map((f, i) => ({ f, i })).filter(({ f }) => f.key !== undefined);
   if (jsonbColumn === undefined || keyed.length === 0) return;
@@ -156,4 +156,33 @@ export async function checkJsonbKeys(client: PoolClient, config: Config, plan: S
   if (row === undefined) return;
   const problems = keyed.filter((_, j) => Number(row[`k${j}`]) === 0).map(({ f, i }) => `features[${i}].key: key "${f.key}" appears in no row of the newest snapshot in ${jsonbColumn}`);
   if (problems.length > 0) throw new ConfigError(`jsonb keys not found (${problems.length})`, problems);
+}
+
+/**
+ * Every problem the catalogue checks of a run (planSource, then checkJsonbKeys) find, each
+ * with its config path, instead of stopping at the first check that fails: what
+ * `check-config --connect` lists. `client` should be inside a read-only transaction.
+ */
+export async function sourceProblems(client: PoolClient, config: Config): Promise<string[]> {
+  const problems: string[] = [];
+  let plan: Pick<SourcePlan, 'relation' | 'dateColumn'> | null = null;
+  try {
+    plan = await planSource(client, config);
+  } catch (err) {
+    if (!(err instanceof ConfigError)) throw err;
+    problems.push(...err.problems);
+    // The keys can still be looked up when the table, its date column and the jsonb column are right.
+    const blocking = /^source\.(table|columns\.snapshotDate|featuresColumn):/;
+    const rel = problems.some((p) => blocking.test(p)) ? null : await describeRelation(client, config.source.table);
+    if (rel !== null) plan = { relation: quoteQualified(`${rel.schema}.${rel.name}`), dateColumn: quoteIdent(config.source.columns.snapshotDate) };
+  }
+  if (plan !== null) {
+    try {
+      await checkJsonbKeys(client, config, plan);
+    } catch (err) {
+      if (!(err instanceof ConfigError)) throw err;
+      problems.push(...err.problems);
+    }
+  }
+  return problems;
 }

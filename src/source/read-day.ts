@@ -5,8 +5,8 @@
  */
 import { pipeline } from 'node:stream/promises';
 import { Writable } from 'node:stream';
-import { to as copyTo } from 'pg-copy-streams';
-import type { PoolClient } from '../db/index.ts';
+import { copyOut, type PoolClient } from '../db/index.ts';
+import { NULL_POSITION, type DayColumns } from '../profile/index.ts';
 import { DataError } from '../errors.ts';
 import { MISSING_NULL, MISSING_TYPE_ERROR } from '../stats/index.ts';
 import { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
@@ -16,34 +16,8 @@ import type { SourcePlan } from './plan.ts';
 const NULL_VALUE = MISSING_NULL;
 const TYPE_ERROR = MISSING_TYPE_ERROR;
 
-export interface CategoricalColumn {
-  codes: Int32Array; // -1 for null
-  dictionary: string[];
-}
-
-export interface DayColumns {
-  date: string;
-  rows: number;
-  /** Rows of the day before whole-list sampling. */
-  totalRows: number;
-  sampled: boolean;
-  /** List index per row (0..lists-1), -1 when the list id is null. */
-  listOf: Int32Array;
-  lists: number;
-  /** 53-bit hash of the item id per row (NaN for a null id); only compared within a list. */
-  itemHash: Float64Array;
-  /** Position per row; NULL_POSITION when null. */
-  position: Int32Array;
-  /** Label per row, NaN when null; null when no label column is configured. */
-  label: Float64Array | null;
-  /** Per config feature index: numeric values (NaN where missing) or null for categorical. */
-  numeric: (Float64Array | null)[];
-  /** Per config feature index: missing codes, or null when nothing was missing. */
-  missing: (Uint8Array | null)[];
-  categorical: (CategoricalColumn | null)[];
-}
-
-export const NULL_POSITION = -2147483648;
+// The day's columns are the profile unit's input, so their shape is defined there.
+export { NULL_POSITION, type CategoricalColumn, type DayColumns } from '../profile/index.ts';
 
 /**
  * Two 32-bit FNV-1a variants over the same bytes, combined into 53 bits: ids are only
@@ -266,7 +240,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
   const sink = new DaySink(plan, out);
   const parser = new CopyBinaryParser(plan.selectList.length, sink);
-  const stream = client.query(copyTo(sql));
+  const stream = copyOut(client, sql);
   await pipeline(
     stream,
     new Writable({

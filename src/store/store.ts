@@ -12,9 +12,9 @@
  */
 import { advisoryXactLock, quoteIdent, withReadOnlyTransaction, withTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { StoreError } from '../errors.ts';
-import type { BaselineProfile, DayProfile, FeatureProfile } from '../profile/types.ts';
-import type { CheckName, Finding, Report, Status } from '../report/contract.ts';
-import type { WithinListRule } from '../config/schema.ts';
+import type { BaselineProfile, DayProfile, FeatureProfile } from '../profile/index.ts';
+import type { CheckName, Finding, Report, Status } from '../report/index.ts';
+import type { WithinListRule } from '../config/index.ts';
 import { bytesToFloat64, decodeJson, encodeJson, float64ToBytes } from './codec.ts';
 import { DayProfileStore } from './day-profiles.ts';
 import { migrate, pendingMigrations, type MigrateOptions } from './migrate.ts';

@@ -49,7 +49,7 @@ describe('defaults', () => {
       columns: { snapshotDate: 'snapshot_date', listId: 'list_id', itemId: 'item_id', position: 'position' },
       engine: 'stream',
       pushdownAssociation: 'sample',
-      maxRowsPerDay: 5_000_000,
+      maxRowsPerDay: 2_000_000,
       statementTimeoutSeconds: 900,
     });
     expect(c.features).toEqual([{ name: 'price', kind: 'numeric', scope: 'item', nullable: true }]);

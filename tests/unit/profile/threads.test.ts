@@ -1,54 +1,78 @@
 /**
- * Worker threads profile a big day's features (PARALLEL_MIN_ROWS and more) with the same
- * result as one thread, ranking sums included: the served order and the score travel to the
- * workers on shared memory with the list grouping.
+ * Worker threads of the profiler: a day over the threshold gives the same profile on
+ * several threads as on one, and a worker that dies (exits without answering, throws)
+ * fails the profile with a clear error instead of leaving the run waiting for ever.
  */
-import { describe, expect, it } from 'vitest';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { afterAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../../src/config/index.ts';
-import { PARALLEL_MIN_ROWS, buildDayProfile, profileOnThisThread, threadedProfiler, type NumericProfile } from '../../../src/profile/index.ts';
-import type { DayColumns } from '../../../src/source/index.ts';
-import { mulberry32 } from '../stats/prng.ts';
+import { buildDayProfile, PARALLEL_MIN_ROWS, profileOnThisThread, threadedProfiler, type DayColumns } from '../../../src/profile/index.ts';
 
-const config = parseConfig({
-  source: { table: 'shop.results', columns: { label: 'clicked', score: 'score' } },
-  features: [{ name: 'a' }, { name: 'b' }, { name: 'c', kind: 'binary' }],
-});
+const config = parseConfig({ source: { table: 't' }, features: [{ name: 'a' }, { name: 'b' }, { name: 'c' }, { name: 'd' }] });
+const LIST_SIZE = 50;
 
-function day(): DayColumns {
-  const rows = PARALLEL_MIN_ROWS + 10_000;
-  const size = 25;
-  const rand = mulberry32(7);
-  const numeric = [0, 1, 2, 3].map(() => new Float64Array(new SharedArrayBuffer(8 * rows)));
-  const listOf = new Int32Array(rows);
-  const position = new Int32Array(rows);
-  const label = new Float64Array(rows);
-  for (let i = 0; i < rows; i++) {
-    // Rows arrive bottom of the list first.
-    const p = size - (i % size);
-    listOf[i] = Math.floor(i / size);
-    position[i] = p;
-    label[i] = rand() < 0.2 / p ? 1 : 0;
-    numeric[0]![i] = -0.03 * p + rand();
-    numeric[1]![i] = Math.round(rand() * 4);
-    numeric[2]![i] = rand() < 0.3 ? 1 : 0;
-    numeric[3]![i] = 1 - p / size + 0.01 * rand();
-  }
-  return { date: '2025-03-10', rows, totalRows: rows, sampled: false, listOf, lists: Math.ceil(rows / size), itemHash: Float64Array.from({ length: rows }, (_, i) => i), position, label, numeric, missing: [null, null, null, null], categorical: [null, null, null, null] };
+/** A day just over the threshold: four numeric features, lists of 50, values from the row number. */
+function bigDay(): DayColumns {
+  const lists = PARALLEL_MIN_ROWS / LIST_SIZE + 4;
+  const rows = lists * LIST_SIZE;
+  const column = (f: (r: number) => number) => {
+    const v = new Float64Array(new SharedArrayBuffer(8 * rows));
+    for (let r = 0; r < rows; r++) v[r] = f(r);
+    return v;
+  };
+  return {
+    date: '2026-03-08',
+    rows,
+    totalRows: rows,
+    sampled: false,
+    listOf: Int32Array.from({ length: rows }, (_, r) => Math.floor(r / LIST_SIZE)),
+    lists,
+    itemHash: Float64Array.from({ length: rows }, (_, r) => r),
+    position: Int32Array.from({ length: rows }, (_, r) => (r % LIST_SIZE) + 1),
+    label: null,
+    numeric: [column((r) => (r * 7) % 101), column((r) => Math.sin(r)), column((r) => r % 13 === 0 ? Number.NaN : r / rows), column((r) => (r % LIST_SIZE) / LIST_SIZE)],
+    missing: [null, null, null, null],
+    categorical: [null, null, null, null],
+  };
+}
+
+const dir = mkdtempSync(join(tmpdir(), 'plumbline-threads-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+/** A stand-in worker module that misbehaves as told. */
+function brokenWorker(name: string, body: string): URL {
+  const file = join(dir, `${name}.mjs`);
+  writeFileSync(file, `import { parentPort } from 'node:worker_threads';\n${body}\n`);
+  return pathToFileURL(file);
 }
 
 describe('threadedProfiler', () => {
-  it('gives the profiles of one thread, association sums included', async () => {
-    expect(config.features.map((f) => f.name)).toEqual(['a', 'b', 'c', 'score']);
-    const one = await buildDayProfile(day(), config, null, profileOnThisThread);
-    const two = await buildDayProfile(day(), config, null, threadedProfiler(2));
-    for (const name of ['a', 'b', 'c', 'score']) {
-      const x = one.features[name] as NumericProfile;
-      const y = two.features[name] as NumericProfile;
-      expect(y.association, name).toEqual(x.association);
-      expect(Array.from(y.sortedSample), name).toEqual(Array.from(x.sortedSample));
-    }
-    // The served order is recovered from the positions: feature a falls with the position.
-    expect((one.features['a'] as NumericProfile).association!.position.sum).toBeLessThan(0);
-    expect(two.outcome).toEqual(one.outcome);
-  }, 120_000);
+  it('gives the same profile on two threads as on one', async () => {
+    const one = await buildDayProfile(bigDay(), config, null, profileOnThisThread);
+    const two = await buildDayProfile(bigDay(), config, null, threadedProfiler(2));
+    expect(two).toEqual(one);
+  }, 60_000);
+
+  it('fails with the exit code when a worker exits without answering', async () => {
+    const url = brokenWorker('exits', "parentPort.on('message', () => process.exit(3));");
+    await expect(buildDayProfile(bigDay(), config, null, threadedProfiler(2, url))).rejects.toThrow('profile worker stopped (exit code 3) before it sent the profiles');
+  }, 60_000);
+
+  it('fails when a worker ends quietly before reading its share', async () => {
+    const url = brokenWorker('quiet', 'process.exit(0);');
+    await expect(buildDayProfile(bigDay(), config, null, threadedProfiler(3, url))).rejects.toThrow('profile worker stopped (exit code 0) before it sent the profiles');
+  }, 60_000);
+
+  it('fails with the error when a worker throws', async () => {
+    const url = brokenWorker('throws', "parentPort.on('message', () => setTimeout(() => { throw new RangeError('out of columns'); }, 1));");
+    await expect(buildDayProfile(bigDay(), config, null, threadedProfiler(2, url))).rejects.toThrow('profile worker failed: out of columns');
+  }, 60_000);
+
+  it('fails when a worker cannot load at all', async () => {
+    const url = brokenWorker('syntax', 'this is not JavaScript');
+    await expect(buildDayProfile(bigDay(), config, null, threadedProfiler(2, url))).rejects.toThrow(/^profile worker failed: /);
+  }, 60_000);
 });
