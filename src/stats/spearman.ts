@@ -33,12 +33,15 @@ export function averageRanksInto(values: ArrayLike<number>, n: number, sorted: F
       if (s[mid]! < v) lo = mid + 1;
       else hi = mid;
     }
-    let le = lo;
-    hi = n;
-    while (le < hi) {
-      const mid = (le + hi) >>> 1;
-      if (s[mid]! <= v) le = mid + 1;
-      else hi = mid;
+    // s[lo] is v itself; look further only when the next value ties with it (rare for continuous values).
+    let le = lo + 1;
+    if (le < n && s[le] === v) {
+      hi = n;
+      while (le < hi) {
+        const mid = (le + hi) >>> 1;
+        if (s[mid]! <= v) le = mid + 1;
+        else hi = mid;
+      }
     }
     out[i] = (lo + 1 + le) / 2;
   }
