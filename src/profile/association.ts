@@ -48,10 +48,13 @@ function ranksOfSortedInto(sorted: ArrayLike<number>, from: number, n: number, o
   }
 }
 
+/** Row offsets inside a list are packed below this (2^20) next to the position. */
+const PACK = 1048576;
+
 /**
  * The served order of every list: its rows with a non-null position sorted by position
  * (each list's rows are packed as (position - min) * 2^20 + index and sorted as doubles,
- * which needs positions within 2^31 of each other and lists under 2^20 rows). O(rows log).
+ * exact for int32 positions and lists under 2^20 rows; longer lists sort by comparison). O(rows log).
  */
 export function servedOrder(position: Int32Array, g: ListGrouping, lists: number, score: Float64Array | null): ServedOrder {
   const start = shared(Int32Array, lists + 1);
@@ -83,13 +86,20 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       if (p !== NULL_POSITION && p < min) min = p;
     }
     let m = 0;
-    for (let k = a; k < b; k++) {
-      const p = position[g.order[k]!]!;
-      if (p !== NULL_POSITION) keys[m++] = (p - min) * 1048576 + (k - a);
+    if (b - a >= PACK) {
+      // A list of a million rows or more: sort its row offsets by position the slow way.
+      const offsets = Array.from({ length: b - a }, (_, k) => k).filter((k) => position[g.order[a + k]!] !== NULL_POSITION);
+      offsets.sort((x, y) => position[g.order[a + x]!]! - position[g.order[a + y]!]! || x - y);
+      offsets.forEach((k, t) => (keys[t] = k));
+    } else {
+      for (let k = a; k < b; k++) {
+        const p = position[g.order[k]!]!;
+        if (p !== NULL_POSITION) keys[m++] = (p - min) * PACK + (k - a);
+      }
+      keys.subarray(0, n).sort();
     }
-    const sorted = keys.subarray(0, n).sort();
     for (let t = 0; t < n; t++) {
-      const k = a + (sorted[t]! % 1048576);
+      const k = a + (b - a >= PACK ? keys[t]! : keys[t]! % PACK);
       const r = g.order[k]!;
       rows[e0 + t] = r;
       pos[e0 + t] = position[r]!;
