@@ -35,6 +35,7 @@ export type FaultKind =
   | 'creeping_drift'
   | 'duplicate_items'
   | 'type_error'
+  | 'overflow'
   | 'polarity_flip'
   | 'shuffle_within_lists'
   | 'order_scrambled';
@@ -47,6 +48,7 @@ export type FaultKind =
  * - creeping_drift: shift in nominal sds added per day, k+1 times on the k-th day [0.05]
  * - unit_change: factor [100]
  * - null_spike, nonfinite, type_error: fraction of rows hit [0.2, 0.01, 0.01]
+ * - overflow: fraction of rows whose value becomes 1e308 (an overflow upstream) [0.1]
  * - stuck_default: the value every row gets [0]
  * - list_truncation: fraction of each list kept [0.5]
  * - new_category: share of items moved to the new category [0.3]
@@ -237,7 +239,7 @@ function validateOptions(options: ScenarioOptions): void {
     if (f.feature === undefined) throw new RangeError(`${where}: needs a feature`);
     const spec = FEATURE_BY_NAME.get(f.feature);
     if (spec === undefined) throw new RangeError(`${where}: unknown feature ${f.feature}`);
-    const numericOnly: FaultKind[] = ['unit_change', 'creeping_drift', 'nonfinite', 'type_error'];
+    const numericOnly: FaultKind[] = ['unit_change', 'creeping_drift', 'nonfinite', 'type_error', 'overflow'];
     if (numericOnly.includes(f.kind) && spec.kind !== 'numeric') throw new RangeError(`${where}: needs a numeric feature`);
     if (f.kind === 'mean_shift' && spec.kind === 'categorical') throw new RangeError(`${where}: cannot shift a categorical feature`);
     if (f.kind === 'minmax_raw' && spec.rule !== 'minmax') throw new RangeError(`${where}: needs a feature with the minmax rule`);
@@ -529,6 +531,9 @@ function applyValueFault(f: FaultPlan, v: Value[], ctx: FaultContext): void {
     }
     case 'nonfinite':
       for (let i = 0; i < v.length; i++) if (rng.bernoulli(f.amount ?? 0.01)) v[i] = [Number.NaN, Number.POSITIVE_INFINITY, Number.NEGATIVE_INFINITY][rng.int(3)];
+      return;
+    case 'overflow':
+      for (let i = 0; i < v.length; i++) if (typeof v[i] === 'number' && rng.bernoulli(f.amount ?? 0.1)) v[i] = 1e308;
       return;
     case 'type_error':
       // A locale bug: the number written as text with a decimal comma.

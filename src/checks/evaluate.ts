@@ -6,14 +6,13 @@
  * differences nobody cares about.
  */
 import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
-import { thinSorted, type BaselineProfile, type CategoricalProfile, type DatasetCounts, type DayProfile, type NumericProfile, type WithinListCounts } from '../profile/index.ts';
+import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
 import type { BinEvidence, CheckName, Finding, Status } from '../report/index.ts';
 import {
   benjaminiHochberg,
   binCountsSorted,
   binLabels,
   categoryPsi,
-  distinctCountSorted,
   ks2Sorted,
   ksPValue,
   psi,
@@ -22,6 +21,9 @@ import {
   type PsiResult,
 } from '../stats/index.ts';
 import { associationFindings, outcomeFindings, ownOutcome, type OutcomeInput } from './ranking.ts';
+import { learnThreshold, type LearnedThreshold } from './adaptive.ts';
+import { distinctFinding } from './distinct.ts';
+import { extremeFinding } from './extremes.ts';
 import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
 
 type FindingDraft = Omit<Finding, 'alert'>;
@@ -38,6 +40,25 @@ function ratio(numerator: number, denominator: number): number {
 
 function threshold(config: Config, feature: FeatureConfig | null, check: keyof Config['thresholds'] & keyof NonNullable<FeatureConfig['thresholds']>): AboveThreshold {
   return (feature?.thresholds?.[check] ?? config.thresholds[check]) as AboveThreshold;
+}
+
+/**
+ * The drift threshold of a feature: learned from the baseline's day-to-day variation when
+ * thresholds.adaptive is on, the feature has no explicit override and the window has enough
+ * days (checks/adaptive.ts); the fixed one otherwise.
+ */
+function driftThreshold(ctx: Context, f: FeatureConfig, check: 'psi' | 'ks'): { t: AboveThreshold; learned: LearnedThreshold | null } {
+  const fixed = threshold(ctx.config, f, check);
+  const a = ctx.config.thresholds.adaptive;
+  if (!a.enabled || f.thresholds?.[check] !== undefined) return { t: fixed, learned: null };
+  const learned = learnThreshold(check, ctx.baseline.variation?.[f.name]?.[check], fixed, a);
+  return learned === null ? { t: fixed, learned: null } : { t: learned.threshold, learned };
+}
+
+/** Marks a drift finding's thresholds as learned and puts how into its evidence. */
+function withLearned(learned: LearnedThreshold | null, draft: FindingDraft): FindingDraft {
+  if (learned === null || draft.thresholds.type !== 'above') return draft;
+  return { ...draft, thresholds: { ...draft.thresholds, learned: true }, evidence: { ...draft.evidence, learnedThreshold: learned.evidence } };
 }
 
 function topBins(result: PsiResult, labels: readonly string[]): BinEvidence[] {
@@ -168,34 +189,24 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
       ),
     );
 
-    // Distinct values on equal-size samples, so a quiet day is not a "collapse".
+    // Distinct values against the baseline days' own (checks/distinct.ts).
     if (f.kind === 'numeric' && cur.sortedSample.length > 1) {
-      const k = Math.min(base.sortedSample.length, cur.sortedSample.length);
-      const dBase = distinctCountSorted(thinSorted(base.sortedSample, k));
-      const dCur = distinctCountSorted(thinSorted(cur.sortedSample, k));
-      const drop = dBase > 0 ? Math.max(0, 1 - dCur / dBase) : 0;
-      const t = threshold(config, f, 'distinct_ratio_drop');
-      const status = statusAbove(drop, t);
-      out.push({
-        feature: f.name,
-        check: 'distinct_ratio_drop',
-        rule: null,
-        value: drop,
-        score: drop,
-        status,
-        thresholds: applied(t),
-        summary: `${dCur} distinct values where the baseline had ${dBase} in as many values (drop ${pct(drop)})`,
-        evidence: { baseline: dBase, current: dCur, comparedValues: k },
-      });
+      out.push(distinctFinding(f.name, base, cur, ctx.baseline.variation?.[f.name], threshold(config, f, 'distinct_ratio_drop')));
+    }
+
+    // Values beyond the baseline's extremes (checks/extremes.ts).
+    if (f.kind === 'numeric') {
+      const x = extremeFinding(f.name, base, cur, config.thresholds.extremeIqrMultiple, threshold(config, f, 'extreme_value_ratio'));
+      if (x !== null) out.push(x);
     }
 
     // PSI over the baseline's quantile bins (nulls in the last bin).
     const spec = ctx.baseline.bins[f.name];
     if (spec !== undefined && cur.binCounts.length === base.binCounts.length) {
       const r = psi(base.binCounts, cur.binCounts);
-      const t = threshold(config, f, 'psi');
+      const { t, learned } = driftThreshold(ctx, f, 'psi');
       out.push(
-        psiFinding({
+        withLearned(learned, psiFinding({
           feature: f.name,
           check: 'psi',
           result: r,
@@ -205,9 +216,9 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
           n: base.sortedSample.length,
           m: cur.quality.rows,
           quantile: config.thresholds.psiNoiseQuantile,
-          summary: (status, floor) => `PSI ${fmt(r.psi)} (${status}; warn >= ${t.warn}, critical >= ${t.critical}; noise floor ${fmt(floor)})`,
+          summary: (status, floor) => `PSI ${fmt(r.psi)} (${status}; ${learned === null ? '' : 'learned '}warn >= ${fmt(t.warn)}, critical >= ${fmt(t.critical)}; noise floor ${fmt(floor)})`,
           evidence: { baseline: base.mean, current: cur.mean },
-        }),
+        })),
       );
     }
 
@@ -279,8 +290,8 @@ function binnedKsFinding(ctx: Context, f: FeatureConfig, base: NumericProfile, c
  */
 function ksDraft(ctx: Context, f: FeatureConfig, base: NumericProfile, cur: NumericProfile, d: number, n: number, m: number, evidence: Record<string, unknown>): { draft: FindingDraft; p: number } {
   const p = ksPValue(Math.min(1, d), n, m);
-  const t = threshold(ctx.config, f, 'ks');
-  const draft: FindingDraft = {
+  const { t, learned } = driftThreshold(ctx, f, 'ks');
+  const draft: FindingDraft = withLearned(learned, {
     feature: f.name,
     check: 'ks',
     rule: null,
@@ -290,7 +301,7 @@ function ksDraft(ctx: Context, f: FeatureConfig, base: NumericProfile, cur: Nume
     thresholds: applied(t),
     summary: '',
     evidence: { baseline: base.mean, current: cur.mean, n, m, pValue: p.pValue, pValueMethod: p.method, adjustedPValue: null, ...evidence },
-  };
+  });
   return { draft, p: p.pValue };
 }
 
@@ -335,9 +346,9 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
   if (base !== undefined && ctx.hasBaseline && Object.keys(base.categories).length > 0 && q.finite > 0) {
     const withNull = (p: CategoricalProfile): Record<string, number> => ({ ...p.categories, ...(p.quality.nulls > 0 ? { '(null)': p.quality.nulls } : {}) });
     const r = categoryPsi(withNull(base), withNull(cur));
-    const t = threshold(config, f, 'psi');
+    const { t, learned } = driftThreshold(ctx, f, 'psi');
     out.push(
-      psiFinding({
+      withLearned(learned, psiFinding({
         feature: f.name,
         check: 'psi',
         result: r,
@@ -346,8 +357,8 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
         n: base.quality.rows,
         m: q.rows,
         quantile: config.thresholds.psiNoiseQuantile,
-        summary: (status) => `PSI ${fmt(r.psi)} over ${r.categories.length} categories (${status}; warn >= ${t.warn}, critical >= ${t.critical})`,
-      }),
+        summary: (status) => `PSI ${fmt(r.psi)} over ${r.categories.length} categories (${status}; ${learned === null ? '' : 'learned '}warn >= ${fmt(t.warn)}, critical >= ${fmt(t.critical)})`,
+      })),
     );
     const tn = threshold(config, f, 'new_category_ratio');
     const newStatus = statusAbove(r.unseenShare, tn);
@@ -478,7 +489,7 @@ export function evaluateDay(config: Config, baseline: BaselineProfile, current: 
       draft.evidence.adjustedPValue = adj;
       const t = draft.thresholds as { warn: number; critical: number };
       if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
-      draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; warn >= ${t.warn}, critical >= ${t.critical}; adjusted p ${fmt(adj)})`;
+      draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; ${draft.evidence['learnedThreshold'] === undefined ? '' : 'learned '}warn >= ${fmt(t.warn)}, critical >= ${fmt(t.critical)}; adjusted p ${fmt(adj)})`;
       if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
     });
   }

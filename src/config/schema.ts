@@ -108,7 +108,10 @@ export const DEFAULT_THRESHOLDS = {
   nonfinite_ratio: { warn: 0.0001, critical: 0.001 },
   type_error_ratio: { warn: 0.0001, critical: 0.001 },
   out_of_range_ratio: { warn: 0.001, critical: 0.01 },
-  distinct_ratio_drop: { warn: 0.5, critical: 0.9 },
+  // On the drop against the baseline days' median distinct count at the day's sample size.
+  distinct_ratio_drop: { warn: 0.2, critical: 0.5 },
+  // On the rise of the share of values beyond the baseline's extreme-value bounds.
+  extreme_value_ratio: { warn: 0.001, critical: 0.01 },
   new_category_ratio: { warn: 0.01, critical: 0.05 },
   rule_violation_ratio: { warn: 0.01, critical: 0.05 },
   flat_list_ratio: { warn: 0.05, critical: 0.2 },
@@ -128,6 +131,30 @@ export const DEFAULT_THRESHOLDS = {
   positive_position_psi: { warn: 0.02, critical: 0.05 },
 } as const;
 
+/**
+ * Adaptive drift thresholds (checks/adaptive.ts): for each feature, PSI and KS D of every
+ * baseline day against the rest of the window (leave one out); warn at `margin` times the
+ * `quantile` of those values, never below `floor`; critical at `criticalMultiple` times warn,
+ * never below `floor` times `criticalMultiple`. Off by default: the fixed thresholds apply.
+ */
+const AdaptiveSchema = z
+  .strictObject({
+    enabled: z.boolean().default(false),
+    /** 1: the largest leave-one-out value (a window of 28 days estimates a 95 % quantile poorly). */
+    quantile: z.number().gt(0).max(1).default(1),
+    margin: z.number().min(1).default(1.5),
+    criticalMultiple: z.number().min(1).default(2),
+    /** Fewest leave-one-out days needed to learn a threshold; with fewer, the fixed thresholds apply. */
+    minDays: positiveInt.min(3).default(7),
+    floor: z
+      .strictObject({
+        psi: z.number().positive().default(0.02),
+        ks: z.number().positive().default(0.03),
+      })
+      .prefault({}),
+  })
+  .prefault({});
+
 const ThresholdsSchema = z
   .strictObject({
     psi: AboveThreshold.default(DEFAULT_THRESHOLDS.psi),
@@ -144,6 +171,13 @@ const ThresholdsSchema = z
     type_error_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.type_error_ratio),
     out_of_range_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.out_of_range_ratio),
     distinct_ratio_drop: AboveThreshold.default(DEFAULT_THRESHOLDS.distinct_ratio_drop),
+    extreme_value_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.extreme_value_ratio),
+    /**
+     * k of the extreme-value bounds: a value is extreme below the baseline's 0.1 % quantile
+     * minus k IQR or above its 99.9 % quantile plus k IQR.
+     */
+    extremeIqrMultiple: z.number().nonnegative().default(3),
+    adaptive: AdaptiveSchema,
     new_category_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.new_category_ratio),
     rule_violation_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.rule_violation_ratio),
     flat_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.flat_list_ratio),
@@ -186,6 +220,7 @@ const FeatureThresholdOverrides = z
     type_error_ratio: AboveThreshold.optional(),
     out_of_range_ratio: AboveThreshold.optional(),
     distinct_ratio_drop: AboveThreshold.optional(),
+    extreme_value_ratio: AboveThreshold.optional(),
     new_category_ratio: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
@@ -321,6 +356,12 @@ export const ConfigSchema = z
             outcome: countOfRuns.default(2),
           })
           .prefault({}),
+        /**
+         * A critical finding this many times beyond its critical threshold (for ratio bands:
+         * above criticalAbove times it, or below criticalBelow divided by it), or a raised flag,
+         * alerts on its first run, whatever consecutiveRuns says. null: never.
+         */
+        immediateMultiple: z.number().min(1).nullable().default(3),
         /** Optional Alertmanager base URL (alerts are POSTed to /api/v2/alerts). */
         alertmanagerUrl: z.url().optional(),
       })

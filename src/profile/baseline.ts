@@ -6,6 +6,7 @@
 import type { Config } from '../config/index.ts';
 import { binEdgesFromSorted, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
+import { windowVariation } from './variation.ts';
 import type { AssociationCounts, RankingDay, BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
 
 /**
@@ -65,8 +66,8 @@ export function capDayProfile(day: DayProfile, cap: number): DayProfile {
       features[name] = f;
       continue;
     }
-    // Bin counts belong to one baseline's bins: a later baseline has bins of its own.
-    const { fineBinCounts: _fine, ...rest } = f;
+    // Bin counts belong to one baseline's bins: a later baseline has bins of its own (so do extreme counts).
+    const { fineBinCounts: _fine, extremeCounts: _extreme, ...rest } = f;
     features[name] = { ...rest, binCounts: [], sortedSample: thinSorted(f.sortedSample, cap) };
   }
   return { ...day, features };
@@ -123,6 +124,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
   const fineBins: Record<string, BinSpec> = {};
   const pushdown = config.source.engine === 'pushdown';
   const features: Record<string, FeatureProfile> = {};
+  const poolOf: Record<string, { pieces: Float64Array[]; merged: Float64Array; spec: BinSpec }> = {};
   for (const f of config.features) {
     const parts = days.map((d) => d.features[f.name]).filter((p): p is FeatureProfile => p !== undefined);
     if (f.kind === 'categorical') {
@@ -176,6 +178,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     const spec = binEdgesFromSorted(merged, config.baseline.bins);
     bins[f.name] = spec;
     if (pushdown) fineBins[f.name] = fineBinsFromSorted(merged, spec);
+    poolOf[f.name] = { pieces, merged, spec };
     features[f.name] = {
       kind: f.kind === 'binary' ? 'binary' : 'numeric',
       quality: q,
@@ -197,6 +200,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     sampleSize,
     createdAt: options.createdAt,
     rankingDays: days.map(rankingDay),
+    variation: windowVariation(days, config, poolOf),
   };
 }
 

@@ -1,4 +1,4 @@
-export type { BaselineProfile, CategoricalColumn, CategoricalProfile, DatasetCounts, DayColumns, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+export type { BaselineProfile, CategoricalColumn, CategoricalProfile, DatasetCounts, DayColumns, DayProfile, FeatureProfile, FeatureVariation, NumericProfile, WithinListCounts } from './types.ts';
 export { NULL_POSITION } from './types.ts';
 export { buildDayProfile, groupByList, countsOverBins, profileOnThisThread, MAX_LIST_SIZE_BIN, type ListGrouping, type NumericProfiler } from './day.ts';
 export { threadedProfiler, PARALLEL_MIN_ROWS } from './threads.ts';
@@ -7,3 +7,4 @@ export type { AssociationCounts, OutcomeCounts, RankCorrelationSums, RankingDay 
 export { emptyCorrelationSums, featureAssociation, mergeCorrelationSums, mergeOutcomeCounts, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
 export { scoreFeatureIndex } from './day.ts';
 export { rankingDay } from './baseline.ts';
+export { DISTINCT_LADDER, distinctLadder } from './variation.ts';

@@ -34,6 +34,11 @@ export interface NumericProfile {
   fineBinCounts?: number[];
   /** Within-list association with the served order and the score (item-level numeric features). */
   association?: AssociationCounts | null;
+  /**
+   * Pushdown engine only: exact counts of the day's finite values beyond the baseline's
+   * extreme-value bounds (PushdownSpecs.extremeBounds), with the day's exact extremes.
+   */
+  extremeCounts?: { lower: number; upper: number; below: number; above: number; min: number | null; max: number | null };
 }
 
 export interface CategoricalProfile {
@@ -46,6 +51,25 @@ export interface CategoricalProfile {
 }
 
 export type FeatureProfile = NumericProfile | CategoricalProfile;
+
+/**
+ * A feature's day-to-day variation over its baseline window (profile/variation.ts): the
+ * yardstick of the per-day distinct check and of the adaptive drift thresholds.
+ */
+export interface FeatureVariation {
+  /** Baseline days with a leave-one-out statistic, in window order. */
+  looDays: string[];
+  /** PSI of each of those days against the rest of the window (over the baseline's bins). */
+  psi: number[];
+  /** KS D of each of those days against the rest of the window (numeric features). */
+  ks?: number[];
+  /** Distinct values of each baseline day's sample thinned to each ladder size (numeric features). */
+  distinct?: {
+    sizes: number[];
+    /** perDay[d][i]: day d's distinct count at sizes[i]; a day's list ends at the largest size its sample reaches. */
+    perDay: number[][];
+  };
+}
 
 export interface DatasetCounts {
   rows: number;
@@ -95,6 +119,8 @@ export interface BaselineProfile {
   createdAt: string;
   /** Per baseline day: outcome and within-list association aggregates (for the day-to-day spread). */
   rankingDays?: RankingDay[];
+  /** Day-to-day variation per feature; absent on baselines stored before it existed. */
+  variation?: Record<string, FeatureVariation>;
 }
 
 /**

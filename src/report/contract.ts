@@ -30,6 +30,7 @@ export const FEATURE_CHECKS = [
   'out_of_range_ratio',
   'constant',
   'distinct_ratio_drop',
+  'extreme_value_ratio',
   'new_category_ratio',
   'rule_violation_ratio',
   'flat_list_ratio',
@@ -69,6 +70,7 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   out_of_range_ratio: 'quality',
   constant: 'quality',
   distinct_ratio_drop: 'quality',
+  extreme_value_ratio: 'quality',
   new_category_ratio: 'drift',
   rule_violation_ratio: 'within_list',
   flat_list_ratio: 'within_list',
@@ -91,7 +93,8 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
 
 /** Thresholds as they were applied to a finding. */
 export type AppliedThresholds =
-  | { type: 'above'; warn: number; critical: number }
+  /** `learned`: adaptive thresholds learned from the baseline's own day-to-day variation (evidence.learnedThreshold says how). */
+  | { type: 'above'; warn: number; critical: number; learned?: boolean }
   | { type: 'band'; warnBelow: number; criticalBelow: number; warnAbove: number; criticalAbove: number }
   | { type: 'flag' };
 
@@ -141,8 +144,16 @@ export interface Finding {
     /** Level that is alerting, or null. */
     level: Exclude<Status, 'ok'> | null;
     since: string | null;
+    /**
+     * Which rule made the finding alert: `consecutive_runs` (alerting.consecutiveRuns) or
+     * `immediate` (far beyond its critical threshold, alerting.immediateMultiple, or a raised
+     * flag). Absent while not alerting. Also in evidence.alertRule.
+     */
+    rule?: AlertRule;
   };
 }
+
+export type AlertRule = 'consecutive_runs' | 'immediate';
 
 export interface Report {
   schemaVersion: typeof REPORT_SCHEMA_VERSION;

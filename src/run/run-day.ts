@@ -7,7 +7,7 @@
  * result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
-import { applyAlertState, evaluateDay, snapshotMissingFinding, type OutcomeInput } from '../checks/index.ts';
+import { applyAlertState, baselineExtremeBounds, evaluateDay, snapshotMissingFinding, type OutcomeInput } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
@@ -84,8 +84,8 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
   if (signal?.aborted) throw signal.reason instanceof Error ? signal.reason : new Error('run aborted');
 }
 
-async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null): Promise<DayProfile> {
-  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null });
+async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null, extremeBounds: PushdownSpecs['extremeBounds'] = null): Promise<DayProfile> {
+  if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null, extremeBounds });
   const t0 = performance.now();
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
   const t1 = performance.now();
@@ -123,7 +123,8 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   // Late rows for a baseline day change its count, and with it the fingerprint.
   const fingerprint = sha256({ profileFp, days: dates.map((d) => [d, rows.get(d)]) });
   const cached = await store.loadBaseline(fingerprint);
-  if (cached !== null) return cached;
+  // A baseline stored before per-day variation existed is rebuilt from the stored day profiles.
+  if (cached !== null && cached.variation !== undefined) return cached;
 
   const stored = await store.loadDayProfiles(profileFp, dates);
   const days: DayProfile[] = [];
@@ -166,6 +167,18 @@ async function laggedOutcome(deps: RunDeps, plan: SourcePlan, runDate: string): 
   };
 }
 
+/** The baseline's extreme-value bounds per numeric feature, which the pushdown engine counts against. */
+function extremeBoundsOf(config: Config, baseline: BaselineProfile): NonNullable<PushdownSpecs['extremeBounds']> {
+  const out: NonNullable<PushdownSpecs['extremeBounds']> = {};
+  for (const f of config.features) {
+    const base = baseline.features[f.name];
+    if (f.kind !== 'numeric' || base === undefined || base.kind === 'categorical') continue;
+    const b = baselineExtremeBounds(base, config.thresholds.extremeIqrMultiple);
+    if (b !== null) out[f.name] = { lower: b.lower, upper: b.upper };
+  }
+  return out;
+}
+
 export interface RunResult {
   report: Report;
   durationSeconds: number;
@@ -191,7 +204,7 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const baseline = deps.config.source.engine === 'pushdown' ? withFineBins(stored) : stored;
     deps.log.debug('baseline ready', { runDate, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
-    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null);
+    const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, deps.config.source.engine === 'pushdown' ? extremeBoundsOf(deps.config, baseline) : null);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
     const tSave = performance.now();

@@ -39,6 +39,16 @@ export interface PushdownSpecs {
   bins: Record<string, BinSpec> | null;
   /** Fine bins per numeric feature, refining `bins` (every PSI bin is a union of fine bins). */
   fineBins: Record<string, BinSpec> | null;
+  /**
+   * The baseline's extreme-value bounds per numeric feature (checks/extremes.ts): the value
+   * pass counts the finite values strictly below `lower` and strictly above `upper`.
+   */
+  extremeBounds?: Record<string, ExtremeLimits> | null;
+}
+
+export interface ExtremeLimits {
+  lower: number;
+  upper: number;
 }
 
 export interface SqlStatement {
@@ -59,6 +69,8 @@ export interface NumericAggregates {
   sum: number;
   min: number | null;
   max: number | null;
+  /** Finite values beyond the extreme-value bounds, when the specs gave bounds for this feature. */
+  extreme?: { lower: number; upper: number; below: number; above: number };
 }
 
 export interface DayAggregates {
@@ -70,6 +82,12 @@ export interface DayAggregates {
 
 /** Lists longer than this share the last list-size bin (the stream engine's MAX_LIST_SIZE_BIN). */
 const LIST_SIZE_BINS = 100;
+
+/**
+ * Values above this magnitude are summed as numeric: float8 sums of fewer than 1e18 values
+ * below it cannot overflow.
+ */
+const HUGE = 1e290;
 
 /** Value-pass code of a jsonb value that is not a number (null codes are SQL NULL). */
 const CODE_TYPE_ERROR = -5;
@@ -99,7 +117,8 @@ export function widthBucketThresholds(spec: BinSpec): number[] {
   return t;
 }
 
-export type DecodedValue = { kind: 'finite'; bin: number; outOfRange: boolean } | { kind: 'negInf' | 'posInf' | 'nan' };
+/** `beyond` (only with extreme-value bounds): -1 below the lower bound, 1 above the upper, 0 within. */
+export type DecodedValue = { kind: 'finite'; bin: number; outOfRange: boolean; beyond?: -1 | 0 | 1 } | { kind: 'negInf' | 'posInf' | 'nan' };
 
 /**
  * One `width_bucket` call per value and feature classifies it completely: the thresholds
@@ -114,27 +133,36 @@ export interface ValueCoding {
   decode(code: number): DecodedValue;
 }
 
-export function valueCoding(spec: BinSpec | undefined, range: { min?: number; max?: number } | undefined): ValueCoding {
+export function valueCoding(spec: BinSpec | undefined, range: { min?: number; max?: number } | undefined, extreme?: ExtremeLimits): ValueCoding {
   const binT = spec === undefined ? [] : widthBucketThresholds(spec);
   const cuts = new Set<number>(binT.filter((x) => Number.isFinite(x)));
   if (range?.min !== undefined && Number.isFinite(range.min)) cuts.add(range.min === 0 ? 0 : range.min);
   if (range?.max !== undefined && Number.isFinite(range.max) && Number.isFinite(nextUp(range.max))) cuts.add(nextUp(range.max));
+  // Extreme-value bounds cut like a range: below `lower`, and from the double after `upper`.
+  if (extreme !== undefined && Number.isFinite(extreme.lower) && extreme.lower > -Number.MAX_VALUE) cuts.add(extreme.lower === 0 ? 0 : extreme.lower);
+  if (extreme !== undefined && Number.isFinite(extreme.upper) && extreme.upper < Number.MAX_VALUE) cuts.add(nextUp(extreme.upper));
   const u = [...cuts].sort((a, b) => a - b);
   const thresholds = [-Number.MAX_VALUE, ...u, Number.POSITIVE_INFINITY, Number.NaN];
   // Finite bucket j holds the doubles in [thresholds[j - 1], thresholds[j]); its first one decides.
   const finiteBuckets = u.length + 1;
   const bins = new Int32Array(finiteBuckets + 1);
   const oor = new Uint8Array(finiteBuckets + 1);
+  const beyond = new Int8Array(finiteBuckets + 1);
   for (let j = 1; j <= finiteBuckets; j++) {
     const first = thresholds[j - 1]!;
     bins[j] = countAtMost(binT, first);
     oor[j] = (range?.min !== undefined && first < range.min) || (range?.max !== undefined && first > range.max) ? 1 : 0;
+    if (extreme !== undefined) beyond[j] = first < extreme.lower ? -1 : first > extreme.upper ? 1 : 0;
   }
   return {
     thresholds,
     decode(code: number): DecodedValue {
       if (code === 0) return { kind: 'negInf' };
-      if (code <= finiteBuckets) return { kind: 'finite', bin: bins[code]!, outOfRange: oor[code] === 1 };
+      if (code <= finiteBuckets) {
+        const v: DecodedValue = { kind: 'finite', bin: bins[code]!, outOfRange: oor[code] === 1 };
+        if (extreme !== undefined) v.beyond = beyond[code] as -1 | 0 | 1;
+        return v;
+      }
       return code === finiteBuckets + 1 ? { kind: 'posInf' } : { kind: 'nan' };
     },
   };
@@ -306,7 +334,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
       return;
     }
     const v = fs.value;
-    const coding = valueCoding(countingSpec(specs, f.name), f.range);
+    const coding = valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name]);
     const bucket = `width_bucket(${v}, ${vp.add(coding.thresholds, 'float8[]')})`;
     // NULL is a null; a jsonb type error is told apart only then (COALESCE evaluates lazily).
     codes.push(fs.typeError === null ? bucket : `coalesce(${bucket}, CASE WHEN ${fs.typeError} THEN ${CODE_TYPE_ERROR} END)`);
@@ -314,7 +342,11 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) AS s, min(v.x) AS lo, max(v.x) AS hi
+  // float8 sums raise SQLSTATE 22003 on overflow (ten values of 1e308 do): values beyond
+  // HUGE are summed as numeric apart, the rest as float8 (one comparison per value).
+  const huge = vp.add(HUGE, 'float8');
+  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE NOT abs(v.x) > ${huge}) AS s,
+       (sum(v.x::numeric) FILTER (WHERE abs(v.x) > ${huge} AND abs(v.x) < 'Infinity'::float8))::text AS hs, min(v.x) AS lo, max(v.x) AS hi
   FROM ${plan.relation}
        CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
  WHERE ${plan.dateColumn} = ${vDate}
@@ -373,8 +405,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
   });
 
-  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
-  const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range)]));
+  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; hs: string | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name])]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
   for (const f of config.features) {
@@ -382,6 +414,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     else {
       const spec = countingSpec(specs, f.name);
       numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
+      const bounds = specs.extremeBounds?.[f.name];
+      if (bounds !== undefined) numeric[f.name]!.extreme = { lower: bounds.lower, upper: bounds.upper, below: 0, above: 0 };
     }
   }
   for (const r of valueRes.rows) {
@@ -410,7 +444,9 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       q.finite += n;
       if (d.outOfRange) q.outOfRange += n;
       if (a.counts.length > 0) a.counts[d.bin]! += n;
-      a.sum += r.s ?? 0;
+      if (a.extreme !== undefined && d.beyond === -1) a.extreme.below += n;
+      if (a.extreme !== undefined && d.beyond === 1) a.extreme.above += n;
+      a.sum += (r.s ?? 0) + Number(r.hs ?? 0);
       if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
       if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
@@ -468,6 +504,7 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
       withinList: f.scope === 'item' ? agg.withinList[f.name]! : null,
     };
     if (fine !== undefined) profile.fineBinCounts = a.counts;
+    if (a.extreme !== undefined) profile.extremeCounts = { ...a.extreme, min: a.min, max: a.max };
     features[f.name] = profile;
   }
   return {

@@ -31,3 +31,5 @@ export { RankScratch, averageRanksInto, rhoFromRanks, spearmanInto, spearmanRho 
 export { POSITION_BUCKET_LABELS, POSITION_BUCKET_UPPER, ndcgAtK, positionBucket, reciprocalRank } from './ranking-outcome.ts';
 export { addToMeanSums, dailyMeanShift, emptyMeanSums, meanOfSums, mergeMeanSums, varianceOfSums } from './daily-mean-shift.ts';
 export type { MeanShift, MeanSums } from './daily-mean-shift.ts';
+export { countBeyondSorted, extremeBoundsSorted } from './extremes.ts';
+export type { ExtremeBounds, ExtremeBoundsOptions } from './extremes.ts';

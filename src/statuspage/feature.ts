@@ -86,8 +86,17 @@ function distributionSection(report: Report, feature: string, psi: Finding | und
   return html`<section class="card" aria-labelledby="dist-h">${h}<p class="muted small">Showing the ${moved.length} bins that moved most${ofHow}: the report keeps only those. Shares are of all rows in each period; the PSI term of a bin is (current − baseline) × ln(current / baseline).</p><div class="twocol"><div><h3>Bins that moved most</h3>${chart}</div><div><h3>Bins that moved most, by PSI term</h3>${table}</div></div></section>`;
 }
 
+/** How a threshold was learned (checks/adaptive.ts), in words. */
+function learnedText(f: Finding, v: Record<string, unknown>): string {
+  const n = (k: string): string => (typeof v[k] === 'number' ? formatValue(f.check, v[k] as number) : 'n/a');
+  const fixed = (v['fixed'] ?? {}) as { warn?: number; critical?: number };
+  return `${String(v['statistic'] ?? f.check)} of each of ${String(v['days'])} baseline days against the rest of the window; its ${String(v['quantile'])} quantile ${n('quantileValue')} × ${String(v['margin'])} (never below ${n('floor')}) gives warn, × ${String(v['criticalMultiple'])} more critical; the fixed thresholds would be ${formatValue(f.check, fixed.warn)} / ${formatValue(f.check, fixed.critical)}`;
+}
+
 function evidenceValue(f: Finding, key: string, value: unknown): SafeHtml | string {
   if (value === null || value === undefined) return 'n/a';
+  if (key === 'learnedThreshold' && typeof value === 'object' && !Array.isArray(value)) return learnedText(f, value as Record<string, unknown>);
+  if (key === 'alertRule') return value === 'immediate' ? 'first run: far beyond the critical threshold' : 'consecutive runs at its level';
   if (typeof value === 'number') return key === 'baseline' || key === 'current' ? sideFormat(f.check)(value) : key === 'tolerance' ? String(value) : num(value);
   if (typeof value === 'boolean') return value ? 'yes' : 'no';
   if (typeof value === 'string') return value;
@@ -118,7 +127,10 @@ function evidenceEntries(f: Finding): SafeHtml {
 function alertText(f: Finding): string {
   const a = f.alert;
   if (a === undefined) return 'no alert state recorded';
-  if (a.alerting) return `alerting at ${a.level ?? 'warn'}${a.since === null ? '' : ` since ${a.since}`}; ${a.consecutiveRuns} run${a.consecutiveRuns === 1 ? '' : 's'} in a row at warn or worse, ${a.consecutiveCritical} at critical`;
+  if (a.alerting) {
+    const why = a.rule === 'immediate' ? '; on its first run, far beyond the critical threshold' : '';
+    return `alerting at ${a.level ?? 'warn'}${a.since === null ? '' : ` since ${a.since}`}; ${a.consecutiveRuns} run${a.consecutiveRuns === 1 ? '' : 's'} in a row at warn or worse, ${a.consecutiveCritical} at critical${why}`;
+  }
   if (a.consecutiveRuns > 0) return `not alerting yet; ${a.consecutiveRuns} run${a.consecutiveRuns === 1 ? '' : 's'} in a row at warn or worse`;
   return 'not alerting';
 }

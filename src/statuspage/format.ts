@@ -60,7 +60,8 @@ export const CHECK_INFO: Record<string, CheckInfo> = {
   type_error_ratio: info('type errors', 'share', true, 'Share of rows whose value is not a number'),
   out_of_range_ratio: info('out of range', 'share', true, 'Share of finite values outside the declared range'),
   constant: info('constant', 'flag', false, 'The feature took a single value where the baseline varied'),
-  distinct_ratio_drop: info('distinct drop', 'share', false, 'Drop in distinct values against an equal-size baseline sample'),
+  distinct_ratio_drop: info('distinct drop', 'share', false, 'Drop in distinct values against the baseline days’ median, each at the day’s sample size'),
+  extreme_value_ratio: info('beyond extremes', 'share', true, 'Share of values beyond the baseline’s extremes (its 0.1 % and 99.9 % quantiles widened by a multiple of the IQR)'),
   new_category_ratio: info('new categories', 'share', false, 'Share of rows in categories the baseline never saw'),
   rule_violation_ratio: info('rule violations', 'share', true, 'Share of lists in which the feature breaks its within-list rule'),
   flat_list_ratio: info('flat lists', 'share', true, 'Share of lists in which the feature does not vary'),
@@ -139,7 +140,8 @@ export function describeThresholds(check: string, t: AppliedThresholds | undefin
   }
   const f = (x: number): string => (c.increase ? `+${formatUnit(c.unit, x)}` : formatUnit(c.unit, x));
   const over = c.increase ? ' over baseline' : '';
-  return `warn at ${f(t.warn)}, critical at ${f(t.critical)}${over}`;
+  const learned = t.learned === true ? ' (learned from the baseline’s day-to-day variation)' : '';
+  return `warn at ${f(t.warn)}, critical at ${f(t.critical)}${over}${learned}`;
 }
 
 /** Evidence keys in words; other keys are split at their capitals. */
@@ -169,6 +171,9 @@ const EVIDENCE_LABEL: Record<string, string> = {
   unseen: 'unseen categories',
   unseenCount: 'unseen categories (count)',
   comparedValues: 'values compared',
+  learnedThreshold: 'threshold learned',
+  alertRule: 'alerting by',
+  mostExtreme: 'most extreme value',
   outOfRange: 'values out of range',
   finite: 'finite values',
   typeErrors: 'non-numeric values',

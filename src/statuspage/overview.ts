@@ -67,6 +67,13 @@ export function alertTag(f: Finding): SafeHtml | null {
   return html`<span class="alert" title="${`alerting${since} (${f.alert.consecutiveRuns} run${f.alert.consecutiveRuns === 1 ? '' : 's'} in a row)`}">alerting</span>`;
 }
 
+/** A learned threshold, next to the value it judged (checks/adaptive.ts). */
+function learnedTag(f: Finding): SafeHtml | null {
+  const t = f.thresholds;
+  if (t?.type !== 'above' || t.learned !== true) return null;
+  return html`<span class="r" title="${`thresholds learned from the baseline’s day-to-day variation: warn at ${formatValue(f.check, t.warn)}, critical at ${formatValue(f.check, t.critical)}`}">learned warn ${formatValue(f.check, t.warn)}</span>`;
+}
+
 function gridCell(findings: Finding[]): SafeHtml {
   if (findings.length === 0) {
     return html`<td class="c na"><span aria-hidden="true">${NOT_APPLICABLE.symbol}</span><span class="vh">${NOT_APPLICABLE.label}</span></td>`;
@@ -75,7 +82,7 @@ function gridCell(findings: Finding[]): SafeHtml {
   const worst = statusOf(sorted[0]!);
   const parts = sorted.map(
     (f) =>
-      html`<span class="st">${statusText(statusOf(f))}</span><span class="v">${formatValue(f.check, f.value)}</span>${f.rule === null || f.rule === undefined ? null : html`<span class="r">${f.rule}</span>`}${alertTag(f) === null ? null : html` ${alertTag(f)}`}`,
+      html`<span class="st">${statusText(statusOf(f))}</span><span class="v">${formatValue(f.check, f.value)}</span>${learnedTag(f)}${f.rule === null || f.rule === undefined ? null : html`<span class="r">${f.rule}</span>`}${alertTag(f) === null ? null : html` ${alertTag(f)}`}`,
   );
   const title = sorted.filter((f) => statusOf(f) !== 'ok').map((f) => f.summary).join('\n');
   return html`<td class="c s-${worst}"${title === '' ? null : html` title="${title}"`}>${parts}</td>`;

@@ -7,6 +7,7 @@ import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
 import { main as rankingBench } from './ranking.bench.ts';
+import { main as trustBench } from './trust.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -19,3 +20,5 @@ await pushdownBench();
 console.log('');
 console.log('== the ranking checks: stream profile with and without, pushdown ranking pass (tests/bench/ranking.bench.ts)');
 await rankingBench();
+console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
+await trustBench();

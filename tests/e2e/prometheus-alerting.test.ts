@@ -1,7 +1,9 @@
 /**
  * Alerting end to end: a day with an injected fault in PostgreSQL -> `plumbline serve` runs it
  * -> a real Prometheus (Debian's `prometheus` package, 2.42) scrapes /metrics and evaluates the
- * shipped rules -> the alert fires, and only the alerts the report calls for.
+ * shipped rules -> the alert fires on the fault's first day (the immediate rule: far beyond its
+ * critical threshold), and only the alerts the report calls for. Every query of the shipped
+ * Grafana dashboard then runs against that Prometheus and must return data.
  *
  * tests/e2e/promtool.test.ts already runs Prometheus against the HTTP server fed with a fixture
  * report (pending alerts, exposition formats); this file drives the whole service on real data
@@ -21,6 +23,7 @@ import { alertNameFor, HEALTH_ALERTS, severityFor } from '../../src/exporter/ind
 import type { Report } from '../../src/report/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
+import { loadDashboard, panelQueries, substitute, variableQuery } from '../support/dashboard.ts';
 import { findPrometheus, startPrometheus, type ChildServer } from '../support/prometheus.ts';
 import { REPO_ROOT, startService, stopAllServices, withApplicationName, type ServiceProcess } from '../support/service.ts';
 import { until } from '../support/tools.ts';
@@ -77,8 +80,8 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
       storeSchema: store,
       overrides: {
         baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
-        // One critical run is enough to alert (the default waits for 2 consecutive drift runs).
-        alerting: { consecutiveRuns: { drift: 1 } },
+        // Default alerting: drift waits for 2 consecutive runs, but a PSI far beyond its critical
+        // threshold (alerting.immediateMultiple, 3) alerts on its first run.
         schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 2, retryBaseSeconds: 1 },
         http: { host: '127.0.0.1', port: 0 },
       },
@@ -112,6 +115,11 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
     }
   });
 
+  /** A finding 3 x beyond its critical threshold (the immediate rule's default). */
+  function isFarBeyond(f: Report['findings'][number]): boolean {
+    return f.thresholds.type === 'above' && f.status === 'critical' && f.score >= 3 * f.thresholds.critical;
+  }
+
   async function promQuery(q: string): Promise<{ metric: Record<string, string>; value: [number, string] }[]> {
     const json = (await (await fetch(`${promUrl}/api/v1/query?query=${encodeURIComponent(q)}`)).json()) as { status: string; data: { result: { metric: Record<string, string>; value: [number, string] }[] } };
     if (json.status !== 'success') throw new Error(`query failed: ${JSON.stringify(json)}`);
@@ -126,10 +134,17 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
   const key = (a: { alertname: string; severity: string; feature?: string | undefined; check?: string | undefined; rule?: string | undefined }): string =>
     `${a.alertname} ${a.severity} ${a.feature ?? '-'} ${a.check ?? '-'} ${a.rule ?? '-'}`;
 
-  it('the run found the fault: price drifted (critical) and is alerting', () => {
+  it('the run found the fault: price drifted (critical) and alerts on its first day, by the immediate rule', () => {
     const psi = report.findings.find((f) => f.feature === 'price' && f.check === 'psi');
     expect(psi?.status).toBe('critical');
-    expect(psi?.alert).toMatchObject({ alerting: true, level: 'critical' });
+    expect(psi!.value).toBeGreaterThanOrEqual(3 * 0.25);
+    expect(psi?.alert).toMatchObject({ alerting: true, level: 'critical', consecutiveRuns: 1, rule: 'immediate' });
+    expect(psi?.evidence['alertRule']).toBe('immediate');
+    // A borderline drift finding of the same day (if any) waits for its second run.
+    for (const f of report.findings.filter((x) => (x.check === 'psi' || x.check === 'ks') && x.status !== 'ok' && x.feature !== 'price')) {
+      if (isFarBeyond(f)) continue;
+      expect(f.alert.alerting, `${f.feature} ${f.check}`).toBe(false);
+    }
   });
 
   it('loads the rule copy with every rule healthy and every for: at 0s', async () => {
@@ -174,6 +189,28 @@ describeIf(`a fault in the data fires the shipped alert in a real Prometheus${wh
     expect(Number(drift.value)).toBeCloseTo(psi, 9);
     expect(drift.annotations['summary']).toBe('Ranking feature price drifted (psi)');
     expect(drift.annotations['description']).toContain('Feature price: psi is');
+  });
+
+  it('runs every query of the shipped Grafana dashboard, and each returns data', async () => {
+    const dashboard = loadDashboard();
+    const queries = [
+      ...panelQueries(dashboard).map((q) => ({ what: `panel "${q.panel}" ${q.refId}`, expr: q.expr })),
+      ...dashboard.templating.list.filter((v) => v.type === 'query').map((v) => ({ what: `variable ${v.name}`, expr: substitute(variableQuery(typeof v.query === 'string' ? v.query : v.query.query).promql, dashboard) })),
+    ];
+    expect(queries.length).toBeGreaterThan(15);
+    const empty: string[] = [];
+    for (const q of queries) {
+      // Range functions over counters need two scrapes: wait for data rather than sample once.
+      const result = await until(`data for ${q.what}`, 20_000, async () => {
+        const r = await promQuery(q.expr);
+        return r.length > 0 ? r : undefined;
+      }, 250).catch(() => []);
+      if (result.length === 0) empty.push(`${q.what}: ${q.expr}`);
+    }
+    expect(empty).toEqual([]);
+    // The variables list what the panels filter on: the scenario's features and the checks of the report.
+    const features = (await promQuery(variableQuery('label_values(plumbline_feature_check_value, feature)').promql)).map((r) => r.metric['feature']);
+    expect(features).toContain('price');
   });
 
   it('keeps the health alerts quiet while their series say all is well', async () => {

@@ -15,7 +15,7 @@ import { loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
 import { fineBinsFromSorted } from '../../src/profile/index.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
-import { refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
+import { planSource, readDayAggregates, refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
 import { assignBin, binEdgesFromSorted, type BinSpec } from '../../src/stats/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { BASELINE_DAYS, FAULTS, SCENARIO } from '../support/fault-days.ts';
@@ -95,7 +95,7 @@ function expectAgreement(stream: Report, pushdown: Report): number {
       expect(sf.value, k).toBeLessThanOrEqual(pf.value + bound + 1e-12);
       expect(pf.evidence['m'], k).toBe(sf.evidence['m']);
       expect(pf.summary, k).toContain('fine bins');
-    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop') {
+    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop' || sf.check === 'extreme_value_ratio') {
       expect(pf.value, k).toBe(sf.value);
       expect(pf.status, k).toBe(sf.status);
       expect(pf.evidence, k).toEqual(sf.evidence);
@@ -155,6 +155,37 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
     expect(typeErrors?.evidence['typeErrors']).toBeGreaterThan(0);
   });
 
+  it('counts values beyond the extreme bounds in SQL, with the exact extremes, and sums 1e308 values without overflow', async () => {
+    const overflow = FAULTS.find((f) => f.plan.kind === 'overflow')!.plan.date;
+    const config = scenarioConfig(table, { storeSchema: 'unused' });
+    const pool = new pg.Pool({ connectionString: url, max: 1 });
+    const client = await pool.connect();
+    try {
+      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      const plan = await planSource(client, config);
+      const bounds = { review_count: { lower: -1, upper: 1000 } };
+      const agg = await readDayAggregates(client, config, plan, overflow, { bins: null, fineBins: null, extremeBounds: bounds });
+      await client.query('COMMIT');
+      const truth = await admin.query<{ above: string; below: string; lo: number; hi: number }>(
+        `SELECT count(*) FILTER (WHERE review_count > 1000)::text AS above, count(*) FILTER (WHERE review_count < -1)::text AS below, min(review_count) AS lo, max(review_count) AS hi FROM ${table} WHERE snapshot_date = $1::date AND review_count < 'Infinity'::float8`,
+        [overflow],
+      );
+      const t = truth.rows[0]!;
+      expect(Number(t.above)).toBeGreaterThan(100);
+      const a = agg.numeric['review_count']!;
+      expect(a.extreme).toEqual({ lower: -1, upper: 1000, below: Number(t.below), above: Number(t.above) });
+      expect([a.min, a.max]).toEqual([t.lo, t.hi]);
+      expect(a.max).toBe(1e308);
+      // The float8 sum of the day would overflow (SQLSTATE 22003); the numeric part keeps the mean defined, here +Infinity as in JavaScript.
+      expect(a.sum).toBe(Number.POSITIVE_INFINITY);
+      // A feature without bounds counts nothing beyond.
+      expect(agg.numeric['price']!.extreme).toBeUndefined();
+    } finally {
+      client.release();
+      await pool.end();
+    }
+  });
+
   it('places values in bins on the server exactly as assignBin does (right-closed intervals, point masses, -0, neighbours of edges)', async () => {
     // A baseline with a point mass at 0 (40 % zeros), ties and a spread of other values.
     const sample = Float64Array.from([...Array.from({ length: 40 }, () => 0), ...Array.from({ length: 60 }, (_, i) => (i % 20) * 0.25 - 1)]).sort();
@@ -179,5 +210,21 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
       Number.isNaN(x) ? { kind: 'nan' } : x === Infinity ? { kind: 'posInf' } : x === -Infinity ? { kind: 'negInf' } : { kind: 'finite', bin: assignBin(fine, x), outOfRange: x < range.min || x > range.max },
     );
     expect(res.rows.map((r) => coding.decode(r.b))).toEqual(expected);
+
+    // Extreme-value bounds cut the same way: strictly below `lower`, strictly above `upper`.
+    const extreme = { lower: -2.5, upper: 7 };
+    const withBounds = valueCoding(fine, range, extreme);
+    const probes2 = [...all, -2.5, -2.5000000000000004, 7, 7.000000000000001, 1e308, -1e308];
+    const res2 = await admin.query<{ b: number }>(`SELECT width_bucket(v, $2::float8[]) AS b FROM unnest($1::float8[]) WITH ORDINALITY AS t(v, i) ORDER BY i`, [probes2, withBounds.thresholds]);
+    const expected2 = probes2.map((x) =>
+      Number.isNaN(x)
+        ? { kind: 'nan' }
+        : x === Infinity
+          ? { kind: 'posInf' }
+          : x === -Infinity
+            ? { kind: 'negInf' }
+            : { kind: 'finite', bin: assignBin(fine, x), outOfRange: x < range.min || x > range.max, beyond: x < extreme.lower ? -1 : x > extreme.upper ? 1 : 0 },
+    );
+    expect(res2.rows.map((r) => withBounds.decode(r.b))).toEqual(expected2);
   });
 });

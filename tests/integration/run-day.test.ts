@@ -62,6 +62,35 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     expect(report.status).not.toBe('ok');
   });
 
+  it('pages on the first day of every break that reaches critical, and says by which rule', () => {
+    for (const { plan, expect: want } of FAULTS) {
+      const f = find(reports.get(plan.date)!, want.feature, want.check, want.rule)!;
+      if (f.status !== 'critical') continue;
+      expect(f.alert, `${plan.kind}: ${f.summary}`).toMatchObject({ alerting: true, level: 'critical', consecutiveRuns: 1 });
+      expect(f.evidence['alertRule']).toBe(f.alert.rule);
+    }
+    // Drift waits for two runs unless far beyond critical: the unit change (PSI) and the new category (30 % of rows) are.
+    const psi = find(reports.get(faultDay(1))!, 'price', 'psi')!;
+    expect(psi.alert.rule).toBe('immediate');
+    const cat = find(reports.get(faultDay(7))!, 'plant_family', 'new_category_ratio')!;
+    expect(cat.alert.rule).toBe('immediate');
+    const overflow = find(reports.get(faultDay(10))!, 'review_count', 'extreme_value_ratio')!;
+    expect(overflow.evidence['mostExtreme']).toBe(1e308);
+  });
+
+  it('does not page on the first day of a borderline drift warning', () => {
+    // A 0.5 sd shift: KS D near 2 Phi(0.25) - 1 = 0.197, at warn (0.1) and under critical (0.2).
+    const ks = find(reports.get(faultDay(0))!, 'semantic_similarity', 'ks')!;
+    expect(ks.status, ks.summary).toBe('warn');
+    expect(ks.alert).toMatchObject({ alerting: false, consecutiveRuns: 1 });
+    // Every drift finding at warn on the fault days waited for a second run.
+    for (const r of reports.values()) {
+      for (const f of r.findings.filter((x) => (x.check === 'psi' || x.check === 'ks') && x.status === 'warn')) {
+        expect(f.alert.alerting && f.alert.consecutiveRuns < 2, `${r.runDate} ${f.feature} ${f.check}`).toBe(false);
+      }
+    }
+  });
+
   it('keeps clean days with weekly seasonality quiet: no critical finding, few warnings', async () => {
     // The second week of the scenario, each day against the clean days before it (window 7).
     const shortConfig = scenarioConfig(table, { storeSchema, overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
@@ -77,6 +106,35 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     }
     // A warning is a "look when convenient"; on clean data they must stay rare (< 2 % of checks).
     expect(warnings / checks).toBeLessThan(0.02);
+  });
+
+  it('with adaptive thresholds (learned from the stored baseline days): clean days stay quiet, drift faults are still caught', async () => {
+    const adaptive = (days: number): typeof config =>
+      scenarioConfig(table, { storeSchema, overrides: { baseline: { window: { type: 'trailing', days } }, thresholds: { adaptive: { enabled: true } } } });
+    const clean = scenarioDates(SCENARIO).slice(7, BASELINE_DAYS);
+    let warnings = 0;
+    let drift = 0;
+    let learned = 0;
+    for (const date of clean) {
+      const { report } = await runDay({ config: adaptive(7), source: rt.source, store: rt.store, log: silentLogger }, date);
+      for (const f of report.findings.filter((x) => x.check === 'psi' || x.check === 'ks')) {
+        drift++;
+        if (f.status !== 'ok') warnings++;
+        if (f.thresholds.type === 'above' && f.thresholds.learned === true) {
+          learned++;
+          expect(f.evidence['learnedThreshold']).toMatchObject({ method: 'leave_one_out', days: 7 });
+        }
+      }
+    }
+    expect(learned).toBe(drift);
+    expect(warnings / drift).toBeLessThanOrEqual(0.01);
+    // The baseline (and its day-to-day variation) came back from the store for the fault days.
+    for (const i of [0, 1, 7]) {
+      const { plan, expect: want } = FAULTS[i]!;
+      const { report } = await runDay({ config: adaptive(BASELINE_DAYS), source: rt.source, store: rt.store, log: silentLogger }, plan.date);
+      const f = find(report, want.feature, want.check, want.rule)!;
+      expect(LEVEL[f.status], `${plan.kind}: ${f.summary}`).toBeGreaterThanOrEqual(LEVEL[want.atLeast]);
+    }
   });
 
   it('counts null list ids, lists of one item and duplicated items instead of failing', async () => {

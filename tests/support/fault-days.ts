@@ -27,6 +27,8 @@ export const FAULTS: FaultCase[] = [
   { plan: { date: faultDay(7), kind: 'new_category', feature: 'plant_family', amount: 0.3 }, expect: { feature: 'plant_family', check: 'new_category_ratio', atLeast: 'critical' } },
   { plan: { date: faultDay(8), kind: 'nonfinite', feature: 'text_match', amount: 0.02 }, expect: { feature: 'text_match', check: 'nonfinite_ratio', atLeast: 'critical' } },
   { plan: { date: faultDay(9), kind: 'duplicate_items', amount: 0.2 }, expect: { feature: null, check: 'duplicate_item_ratio', atLeast: 'critical' } },
+  // review_count declares only a minimum: 1e308 is "in range", PSI and KS barely move.
+  { plan: { date: faultDay(10), kind: 'overflow', feature: 'review_count', amount: 0.1 }, expect: { feature: 'review_count', check: 'extreme_value_ratio', atLeast: 'critical' } },
 ];
 
 export const SCENARIO: ScenarioOptions = {

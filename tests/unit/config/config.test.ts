@@ -54,7 +54,7 @@ describe('defaults', () => {
     });
     expect(c.features).toEqual([{ name: 'price', kind: 'numeric', scope: 'item', nullable: true }]);
     expect(c.baseline).toEqual({ window: { type: 'trailing', days: 28 }, sampleSize: 200_000, bins: 10, minDays: 1 });
-    expect(c.alerting).toEqual({ consecutiveRuns: { drift: 2, quality: 1, within_list: 1, dataset: 1, ranking: 1, outcome: 2 } });
+    expect(c.alerting).toEqual({ consecutiveRuns: { drift: 2, quality: 1, within_list: 1, dataset: 1, ranking: 1, outcome: 2 }, immediateMultiple: 3 });
     expect(c.outcome).toEqual({ ndcgAt: 10, labelLagDays: 0 });
     expect(c.schedule).toEqual({
       cron: '30 6 * * *',
@@ -69,7 +69,14 @@ describe('defaults', () => {
   });
 
   it('applies every threshold default when the file omits thresholds (prefault of the section)', () => {
-    expect(c.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999, rankingNoiseZ: 3 });
+    expect(c.thresholds).toEqual({
+      ...DEFAULT_THRESHOLDS,
+      ksAlpha: 0.01,
+      psiNoiseQuantile: 0.999,
+      rankingNoiseZ: 3,
+      extremeIqrMultiple: 3,
+      adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
+    });
     expect(c.thresholds.psi).toEqual({ warn: 0.1, critical: 0.25 });
   });
 

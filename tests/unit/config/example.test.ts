@@ -93,7 +93,14 @@ describe('deploy/plumbline.example.yaml', () => {
     const def = parseConfig({ source: { table: ex.source.table }, features: [{ name: 'x' }] });
     // The thresholds section lists every default ("the values below are the defaults").
     expect(ex.thresholds).toEqual(def.thresholds);
-    expect(ex.thresholds).toEqual({ ...DEFAULT_THRESHOLDS, ksAlpha: 0.01, psiNoiseQuantile: 0.999, rankingNoiseZ: 3 });
+    expect(ex.thresholds).toEqual({
+      ...DEFAULT_THRESHOLDS,
+      ksAlpha: 0.01,
+      psiNoiseQuantile: 0.999,
+      rankingNoiseZ: 3,
+      extremeIqrMultiple: 3,
+      adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
+    });
     expect(ex.alerting).toEqual(def.alerting);
     expect(ex.outcome).toEqual(def.outcome);
     expect(ex.schedule).toEqual(def.schedule);

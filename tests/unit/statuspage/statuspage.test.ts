@@ -508,3 +508,41 @@ describe('ranking findings on the status page', () => {
     expect(body).toContain('Ranks whose share of positives moved most Served rank');
   });
 });
+
+describe('learned thresholds and first-run alerts', () => {
+  const date = '2031-05-10';
+  const learnedKs = finding({
+    feature: 'price_rel',
+    check: 'ks',
+    value: 0.052,
+    status: 'warn',
+    thresholds: { type: 'above', warn: 0.034, critical: 0.068, learned: true },
+    evidence: {
+      learnedThreshold: { method: 'leave_one_out', statistic: 'ks', days: 27, quantile: 0.95, quantileValue: 0.0227, margin: 1.5, criticalMultiple: 2, floor: 0.03, fixed: { warn: 0.1, critical: 0.2 } },
+    },
+  });
+  const overflow = finding({
+    feature: 'price_rel',
+    check: 'extreme_value_ratio',
+    value: 0.1,
+    status: 'critical',
+    thresholds: { type: 'above', warn: 0.001, critical: 0.01 },
+    evidence: { alertRule: 'immediate', mostExtreme: 1e308 },
+    alert: { ...alerting('critical', date, 1), rule: 'immediate' },
+  });
+  const deps = fake([report(date, [learnedKs, overflow])]).deps;
+
+  it('shows the learned threshold next to the value, on the overview and on the feature page', async () => {
+    expect(cell((await get(deps, '/')).body, 'price_rel', 'KS D')).toBe('▲ warn 0.052 learned warn 0.034');
+    const page = stripTags((await get(deps, '/feature/price_rel')).body);
+    expect(page).toContain('judged by warn at 0.034, critical at 0.068 (learned from the baseline’s day-to-day variation)');
+    expect(page).toContain('threshold learned ks of each of 27 baseline days against the rest of the window; its 0.95 quantile 0.0227 × 1.5 (never below 0.03) gives warn, × 2 more critical; the fixed thresholds would be 0.1 / 0.2');
+  });
+
+  it('says when a finding alerted on its first run, far beyond its critical threshold', async () => {
+    const page = stripTags((await get(deps, '/feature/price_rel')).body);
+    expect(page).toContain('on its first run, far beyond the critical threshold');
+    expect(page).toContain('alerting by first run: far beyond the critical threshold');
+    expect(page).toContain('beyond extremes');
+  });
+});
