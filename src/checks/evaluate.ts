@@ -13,6 +13,8 @@ import {
   binCountsSorted,
   binLabels,
   categoryPsi,
+  NULL_CATEGORY,
+  OTHER_CATEGORY,
   ks2Sorted,
   ksPValue,
   psi,
@@ -109,7 +111,12 @@ function flagFinding(feature: string | null, check: CheckName, raised: boolean, 
   return { feature, check, rule: null, value: v, score: v, status: raised ? 'critical' : 'ok', thresholds: { type: 'flag' }, summary, evidence };
 }
 
-/** A finding on the increase of a ratio over its baseline value. */
+/**
+ * A finding on the increase of a ratio over its baseline value. A null baseline means there
+ * is none yet (no baseline day, or a feature new to the config): the finding is ok and says
+ * so, since nothing can have risen over a baseline that does not exist. Checks against a
+ * declared expectation (a non-nullable feature, a valid range, a within-list rule) pass 0.
+ */
 function increaseFinding(
   feature: string | null,
   check: CheckName,
@@ -119,7 +126,10 @@ function increaseFinding(
   t: AboveThreshold,
   evidence: Record<string, unknown> = {},
 ): FindingDraft {
-  const score = Math.max(0, current - (baseline ?? 0));
+  if (baseline === null) {
+    return { feature, check, rule: null, value: current, score: 0, status: 'ok', thresholds: applied(t), summary: `${label} ${pct(current)} (no baseline yet)`, evidence: { baseline: null, current, ...evidence } };
+  }
+  const score = Math.max(0, current - baseline);
   const status = statusAbove(score, t);
   return {
     feature,
@@ -139,22 +149,25 @@ interface Context {
   baseline: BaselineProfile;
   current: DayProfile;
   hasBaseline: boolean;
+  /** Not a single baseline day: checks that compare with the baseline say "no baseline yet". */
+  noBaseline: boolean;
 }
 
 function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | undefined, cur: NumericProfile, ksQueue: { draft: FindingDraft; p: number }[]): FindingDraft[] {
   const out: FindingDraft[] = [];
   const { config } = ctx;
   const q = cur.quality;
-  const bq = base?.quality;
+  // No baseline day at all: the rates compared with the baseline have nothing to compare with.
+  const bq = ctx.noBaseline ? undefined : base?.quality;
   const rows = q.rows;
 
-  // Data quality: these need no baseline to be meaningful.
+  // Data quality: a non-nullable feature and a declared range are judged without a baseline.
   const nullRatio = ratio(q.nulls, rows);
-  const baseNull = bq === undefined || !f.nullable ? 0 : ratio(bq.nulls, bq.rows);
+  const baseNull = !f.nullable ? 0 : bq === undefined ? null : ratio(bq.nulls, bq.rows);
   out.push(increaseFinding(f.name, 'null_ratio', 'null', nullRatio, baseNull, threshold(config, f, 'null_ratio'), { nulls: q.nulls, rows, nullable: f.nullable }));
   const nonfinite = q.nan + q.posInf + q.negInf;
   out.push(
-    increaseFinding(f.name, 'nonfinite_ratio', 'NaN/Infinity', ratio(nonfinite, rows), bq === undefined ? 0 : ratio(bq.nan + bq.posInf + bq.negInf, bq.rows), threshold(config, f, 'nonfinite_ratio'), {
+    increaseFinding(f.name, 'nonfinite_ratio', 'NaN/Infinity', ratio(nonfinite, rows), bq === undefined ? null : ratio(bq.nan + bq.posInf + bq.negInf, bq.rows), threshold(config, f, 'nonfinite_ratio'), {
       nan: q.nan,
       posInf: q.posInf,
       negInf: q.negInf,
@@ -162,7 +175,7 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
     }),
   );
   if (f.key !== undefined) {
-    out.push(increaseFinding(f.name, 'type_error_ratio', 'non-numeric values', ratio(q.typeErrors, rows), bq === undefined ? 0 : ratio(bq.typeErrors, bq.rows), threshold(config, f, 'type_error_ratio'), { typeErrors: q.typeErrors, rows }));
+    out.push(increaseFinding(f.name, 'type_error_ratio', 'non-numeric values', ratio(q.typeErrors, rows), bq === undefined ? null : ratio(bq.typeErrors, bq.rows), threshold(config, f, 'type_error_ratio'), { typeErrors: q.typeErrors, rows }));
   }
   if (f.range !== undefined) {
     out.push(
@@ -235,7 +248,7 @@ function numericFindings(ctx: Context, f: FeatureConfig, base: NumericProfile | 
     }
   }
 
-  const wl = withinListFindings(ctx, f, base?.withinList ?? null, cur.withinList);
+  const wl = withinListFindings(ctx, f, ctx.noBaseline ? null : (base?.withinList ?? null), cur.withinList);
   out.push(...wl);
   return out;
 }
@@ -311,7 +324,7 @@ function withinListFindings(ctx: Context, f: FeatureConfig, base: WithinListCoun
   // Increases are measured against whatever baseline there is (as for null_ratio): minDays
   // gates the drift and count comparisons only, and a zero stand-in would page on every list
   // that is flat by nature (a category shared by a whole list) until the window fills up.
-  const baseFlat = base !== null ? ratio(base.flatLists, base.listsJudged) : 0;
+  const baseFlat = base !== null ? ratio(base.flatLists, base.listsJudged) : null;
   out.push(
     increaseFinding(f.name, 'flat_list_ratio', 'lists where it does not vary:', ratio(cur.flatLists, cur.listsJudged), baseFlat, threshold(ctx.config, f, 'flat_list_ratio'), {
       flatLists: cur.flatLists,
@@ -321,6 +334,7 @@ function withinListFindings(ctx: Context, f: FeatureConfig, base: WithinListCoun
   if (f.withinList !== undefined) {
     const judged = cur.listsJudged - cur.flatLists;
     const baseJudged = base === null ? 0 : base.listsJudged - base.flatLists;
+    // A declared rule is judged against 0 until there is a baseline.
     const baseRatio = base !== null ? ratio(base.ruleViolations, baseJudged) : 0;
     const finding = increaseFinding(
       f.name,
@@ -341,18 +355,23 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
   const { config } = ctx;
   const q = cur.quality;
   const out: FindingDraft[] = [];
-  const baseNull = base === undefined || !f.nullable ? 0 : ratio(base.quality.nulls, base.quality.rows);
+  const baseNull = !f.nullable ? 0 : base === undefined || ctx.noBaseline ? null : ratio(base.quality.nulls, base.quality.rows);
   out.push(increaseFinding(f.name, 'null_ratio', 'null', ratio(q.nulls, q.rows), baseNull, threshold(config, f, 'null_ratio'), { nulls: q.nulls, rows: q.rows, nullable: f.nullable }));
-  if (base !== undefined && ctx.hasBaseline && Object.keys(base.categories).length > 0 && q.finite > 0) {
-    const withNull = (p: CategoricalProfile): Record<string, number> => ({ ...p.categories, ...(p.quality.nulls > 0 ? { '(null)': p.quality.nulls } : {}) });
-    const r = categoryPsi(withNull(base), withNull(cur));
+  if (base !== undefined && ctx.hasBaseline && base.categories.size > 0 && q.finite > 0) {
+    const [bc, cc] = comparableCategories(base, cur);
+    const r = categoryPsi(bc, cc);
+    // The buckets of other categories and of missing values are never "new categories".
+    const unseen = r.unseen.filter((c) => c !== OTHER_CATEGORY && c !== NULL_CATEGORY);
+    let currentRows = 0;
+    for (const v of cc.values()) currentRows += v;
+    const unseenShare = ratio(unseen.reduce((sum, c) => sum + cc.get(c)!, 0), currentRows);
     const { t, learned } = driftThreshold(ctx, f, 'psi');
     out.push(
       withLearned(learned, psiFinding({
         feature: f.name,
         check: 'psi',
         result: r,
-        labels: r.categories.map((c) => `category ${JSON.stringify(c)}`),
+        labels: r.categories.map(categoryLabel),
         t,
         n: base.quality.rows,
         m: q.rows,
@@ -361,24 +380,78 @@ function categoricalFindings(ctx: Context, f: FeatureConfig, base: CategoricalPr
       })),
     );
     const tn = threshold(config, f, 'new_category_ratio');
-    const newStatus = statusAbove(r.unseenShare, tn);
+    const newStatus = statusAbove(unseenShare, tn);
     out.push({
       feature: f.name,
       check: 'new_category_ratio',
       rule: null,
-      value: r.unseenShare,
-      score: r.unseenShare,
+      value: unseenShare,
+      score: unseenShare,
       status: newStatus,
       thresholds: applied(tn),
-      summary: r.unseen.length === 0 ? 'no category unseen in the baseline' : `${pct(r.unseenShare)} of rows in ${r.unseen.length} categor${r.unseen.length === 1 ? 'y' : 'ies'} unseen in the baseline`,
-      // Category names are values of a declared feature (bounded), not ids; keep a few.
-      evidence: { current: r.unseenShare, unseen: r.unseen.slice(0, 10), unseenCount: r.unseen.length },
+      summary: unseen.length === 0 ? 'no category unseen in the baseline' : `${pct(unseenShare)} of rows in ${unseen.length} categor${unseen.length === 1 ? 'y' : 'ies'} unseen in the baseline`,
+      // Category names are values of a declared feature (bounded, cut to maxCategoryLength), not ids; keep a few.
+      evidence: { current: unseenShare, unseen: unseen.slice(0, 10), unseenCount: unseen.length },
     });
+    out.push(cardinalityFinding(ctx, f, base, cur));
     const stuck = cur.distinct === 1 && base.distinct > 1 && q.finite > 1;
     out.push(flagFinding(f.name, 'constant', stuck, stuck ? `one category only (baseline had ${base.distinct})` : `${cur.distinct} categories`, { baseline: base.distinct, current: cur.distinct }));
   }
   out.push(...withinListFindings(ctx, f, base?.withinList ?? null, cur.withinList));
   return out;
+}
+
+/** Evidence label of a category bin. */
+function categoryLabel(c: string): string {
+  if (c === OTHER_CATEGORY) return 'other categories';
+  if (c === NULL_CATEGORY) return 'null';
+  return `category ${JSON.stringify(c)}`;
+}
+
+/**
+ * The two sides of a categorical comparison, missing values as a bin of their own. When the
+ * baseline kept only its most frequent categories, a day's category outside them may be one
+ * of the baseline's tail: it is compared within the "other" bucket, not called new.
+ */
+function comparableCategories(base: CategoricalProfile, cur: CategoricalProfile): [Map<string, number>, Map<string, number>] {
+  const b = new Map(base.categories);
+  const c = new Map<string, number>();
+  const folded = base.otherRows > 0;
+  for (const [k, v] of cur.categories) {
+    const key = folded && !b.has(k) ? OTHER_CATEGORY : k;
+    c.set(key, (c.get(key) ?? 0) + v);
+  }
+  if (folded) b.set(OTHER_CATEGORY, base.otherRows);
+  if (cur.otherRows > 0) c.set(OTHER_CATEGORY, (c.get(OTHER_CATEGORY) ?? 0) + cur.otherRows);
+  if (base.quality.nulls > 0) b.set(NULL_CATEGORY, base.quality.nulls);
+  if (cur.quality.nulls > 0) c.set(NULL_CATEGORY, cur.quality.nulls);
+  return [b, c];
+}
+
+/**
+ * Distinct categories of the day against the baseline's (its largest daily count): a
+ * category column that suddenly takes thousands of values (ids or free text leaking into it)
+ * is a data break even when the most frequent categories still look the same.
+ */
+function cardinalityFinding(ctx: Context, f: FeatureConfig, base: CategoricalProfile, cur: CategoricalProfile): FindingDraft {
+  const t = threshold(ctx.config, f, 'category_cardinality');
+  const score = cur.distinct / Math.max(1, base.distinct);
+  const status = statusAbove(score, t);
+  const kept = ctx.config.source.maxCategories;
+  const other = cur.otherRows;
+  return {
+    feature: f.name,
+    check: 'category_cardinality',
+    rule: null,
+    value: cur.distinct,
+    score,
+    status,
+    thresholds: applied(t),
+    summary:
+      `${fmt(cur.distinct)} distinct categories, ${fmt(score)} x the baseline's ${fmt(base.distinct)} (${status}; warn >= ${t.warn} x, critical >= ${t.critical} x)` +
+      (other > 0 ? `; ${pct(ratio(other, cur.quality.finite))} of rows beyond the ${fmt(kept)} most frequent` : ''),
+    evidence: { baseline: base.distinct, current: cur.distinct, keptCategories: kept, otherShare: ratio(other, cur.quality.finite) },
+  };
 }
 
 function datasetFindings(ctx: Context): FindingDraft[] {
@@ -432,11 +505,20 @@ function datasetFindings(ctx: Context): FindingDraft[] {
       );
     }
   }
-  // Increases over the baseline's rate, even below minDays (see withinListFindings); the rate is 0 without any baseline day.
-  out.push(increaseFinding(null, 'duplicate_item_ratio', 'lists with a duplicated item:', ratio(cur.listsWithDuplicateItems, cur.lists), ratio(base.listsWithDuplicateItems, base.lists), th.duplicate_item_ratio, { lists: cur.listsWithDuplicateItems }));
-  out.push(increaseFinding(null, 'position_gap_ratio', 'lists with position gaps:', ratio(cur.listsWithPositionGaps, cur.lists), ratio(base.listsWithPositionGaps, base.lists), th.position_gap_ratio, { lists: cur.listsWithPositionGaps }));
-  out.push(increaseFinding(null, 'null_list_id_ratio', 'rows without a list id:', ratio(cur.nullListIdRows, cur.rows), ratio(base.nullListIdRows, base.rows), th.null_list_id_ratio, { rows: cur.nullListIdRows }));
-  out.push(increaseFinding(null, 'singleton_list_ratio', 'lists of one item:', ratio(cur.singletonLists, cur.lists), ratio(base.singletonLists, base.lists), th.singleton_list_ratio, { lists: cur.singletonLists }));
+  // Increases over the baseline's rate, even below minDays (see withinListFindings); "no baseline yet" without any baseline day.
+  const none = ctx.noBaseline;
+  const vsBase = (n: number, d: number): number | null => (none ? null : ratio(n, d));
+  out.push(increaseFinding(null, 'duplicate_item_ratio', 'lists with a duplicated item:', ratio(cur.listsWithDuplicateItems, cur.lists), vsBase(base.listsWithDuplicateItems, base.lists), th.duplicate_item_ratio, { lists: cur.listsWithDuplicateItems }));
+  out.push(increaseFinding(null, 'position_gap_ratio', 'lists with position gaps:', ratio(cur.listsWithPositionGaps, cur.lists), vsBase(base.listsWithPositionGaps, base.lists), th.position_gap_ratio, { lists: cur.listsWithPositionGaps }));
+  out.push(increaseFinding(null, 'null_list_id_ratio', 'rows without a list id:', ratio(cur.nullListIdRows, cur.rows), vsBase(base.nullListIdRows, base.rows), th.null_list_id_ratio, { rows: cur.nullListIdRows }));
+  out.push(increaseFinding(null, 'null_item_id_ratio', 'rows without an item id:', ratio(cur.nullItemIdRows, cur.rows), vsBase(base.nullItemIdRows, base.rows), th.null_item_id_ratio, { rows: cur.nullItemIdRows }));
+  out.push(increaseFinding(null, 'singleton_list_ratio', 'lists of one item:', ratio(cur.singletonLists, cur.lists), vsBase(base.singletonLists, base.lists), th.singleton_list_ratio, { lists: cur.singletonLists }));
+  if (config.source.columns.label !== undefined) {
+    // Rows in lists without a label (null or NaN): left out of the positive rate, not counted as negatives.
+    const inLists = (c: DatasetCounts): number => c.rows - c.nullListIdRows;
+    const nullLabels = inLists(cur) - cur.labelRows;
+    out.push(increaseFinding(null, 'null_label_ratio', 'rows without a label:', ratio(nullLabels, inLists(cur)), vsBase(inLists(base) - base.labelRows, inLists(base)), th.null_label_ratio, { rows: nullLabels }));
+  }
   if (config.source.columns.label !== undefined && cur.labelRows > 0) {
     const curRate = ratio(cur.labelPositives, cur.labelRows);
     const baseRate = ratio(base.labelPositives, base.labelRows);
@@ -455,7 +537,7 @@ function datasetFindings(ctx: Context): FindingDraft[] {
         evidence: { baseline: baseRate, current: curRate },
       });
     }
-    out.push(increaseFinding(null, 'no_positive_list_ratio', 'lists without a positive label:', ratio(cur.listsWithoutPositive, cur.lists), ratio(base.listsWithoutPositive, base.lists), th.no_positive_list_ratio));
+    out.push(increaseFinding(null, 'no_positive_list_ratio', 'lists without a positive label:', ratio(cur.listsWithoutPositive, cur.lists), vsBase(base.listsWithoutPositive, base.lists), th.no_positive_list_ratio));
   }
   return out;
 }
@@ -471,7 +553,7 @@ export function snapshotMissingFinding(date: string, reason: string): FindingDra
  */
 export function evaluateDay(config: Config, baseline: BaselineProfile, current: DayProfile, outcome?: OutcomeInput): FindingDraft[] {
   if (current.dataset.rows === 0) return [snapshotMissingFinding(current.date, 'the source has no rows for this date')];
-  const ctx: Context = { config, baseline, current, hasBaseline: baseline.days.length >= config.baseline.minDays };
+  const ctx: Context = { config, baseline, current, hasBaseline: baseline.days.length >= config.baseline.minDays, noBaseline: baseline.days.length === 0 };
   const findings: FindingDraft[] = [];
   const ksQueue: { draft: FindingDraft; p: number }[] = [];
   for (const f of config.features) {

@@ -113,12 +113,16 @@ export const DEFAULT_THRESHOLDS = {
   // On the rise of the share of values beyond the baseline's extreme-value bounds.
   extreme_value_ratio: { warn: 0.001, critical: 0.01 },
   new_category_ratio: { warn: 0.01, critical: 0.05 },
+  // Distinct categories of the day over the baseline's: our own choice (a tail that triples, ids leaking into a category column).
+  category_cardinality: { warn: 3, critical: 10 },
   rule_violation_ratio: { warn: 0.01, critical: 0.05 },
   flat_list_ratio: { warn: 0.05, critical: 0.2 },
   list_size_psi: { warn: 0.1, critical: 0.25 },
   duplicate_item_ratio: { warn: 0.001, critical: 0.01 },
   position_gap_ratio: { warn: 0.001, critical: 0.01 },
   null_list_id_ratio: { warn: 0.0001, critical: 0.001 },
+  null_item_id_ratio: { warn: 0.0001, critical: 0.001 },
+  null_label_ratio: { warn: 0.01, critical: 0.05 },
   singleton_list_ratio: { warn: 0.05, critical: 0.2 },
   no_positive_list_ratio: { warn: 0.05, critical: 0.15 },
   row_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
@@ -179,12 +183,15 @@ const ThresholdsSchema = z
     extremeIqrMultiple: z.number().nonnegative().default(3),
     adaptive: AdaptiveSchema,
     new_category_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.new_category_ratio),
+    category_cardinality: AboveThreshold.default(DEFAULT_THRESHOLDS.category_cardinality),
     rule_violation_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.rule_violation_ratio),
     flat_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.flat_list_ratio),
     list_size_psi: AboveThreshold.default(DEFAULT_THRESHOLDS.list_size_psi),
     duplicate_item_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.duplicate_item_ratio),
     position_gap_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.position_gap_ratio),
     null_list_id_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_list_id_ratio),
+    null_item_id_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_item_id_ratio),
+    null_label_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.null_label_ratio),
     singleton_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.singleton_list_ratio),
     no_positive_list_ratio: AboveThreshold.default(DEFAULT_THRESHOLDS.no_positive_list_ratio),
     row_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.row_count_ratio),
@@ -222,6 +229,7 @@ const FeatureThresholdOverrides = z
     distinct_ratio_drop: AboveThreshold.optional(),
     extreme_value_ratio: AboveThreshold.optional(),
     new_category_ratio: AboveThreshold.optional(),
+    category_cardinality: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
     position_rank_correlation: AboveThreshold.optional(),
@@ -255,7 +263,7 @@ export const FeatureSchema = z
       .strictObject({
         rule: z.enum(WITHIN_LIST_RULES),
         /** Absolute tolerance on the rule's quantities (e.g. |min - 0| <= tolerance for minmax). */
-        tolerance: z.number().nonnegative().default(1e-6),
+        tolerance: z.number().nonnegative().max(1e6).default(1e-6),
       })
       .optional(),
     thresholds: FeatureThresholdOverrides,
@@ -327,6 +335,10 @@ export const ConfigSchema = z
       statementTimeoutSeconds: positiveInt
         .max(LIMITS.statementTimeoutSeconds, `must be at most ${LIMITS.statementTimeoutSeconds} seconds (PostgreSQL's statement_timeout limit, 2147483647 ms)`)
         .default(900),
+      /** Categorical features keep their most frequent categories up to this many a day (and in a baseline), the rest as one bucket. */
+      maxCategories: positiveInt.max(100_000).default(1000),
+      /** Category values are cut to this many characters (a 10 kB value must not cost 10 kB per distinct value). */
+      maxCategoryLength: positiveInt.max(10_000).default(200),
     }),
     features: z.array(FeatureSchema).min(1, 'declare at least one feature'),
     baseline: z
@@ -416,6 +428,19 @@ export const ConfigSchema = z
     store: z
       .strictObject({
         schema: identifier.default('plumbline'),
+        /** What the leader deletes after each successful run, so the store stays bounded (src/store/retention.ts). */
+        retention: z
+          .strictObject({
+            /** false: nothing is ever deleted. */
+            enabled: z.boolean().default(true),
+            /** Reports, runs and findings are kept this many days (the two newest evaluated dates always). */
+            reportDays: positiveInt.max(36_600).default(400),
+            /** Day profiles are kept as long as a baseline window needs them, and at least this many days. */
+            dayProfileMinDays: positiveInt.max(36_600).default(35),
+            /** Baselines used by this many newest evaluated dates (and this many newest saved) are kept. */
+            baselinesKept: positiveInt.max(1000).default(3),
+          })
+          .prefault({}),
       })
       .prefault({}),
   })

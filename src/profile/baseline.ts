@@ -4,7 +4,7 @@
  * Sunday, exactly as it would in one long column.
  */
 import type { Config } from '../config/index.ts';
-import { binEdgesFromSorted, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { binEdgesFromSorted, boundCategories, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import { windowVariation } from './variation.ts';
 import type { AssociationCounts, RankingDay, BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
@@ -29,6 +29,7 @@ function addDataset(a: DatasetCounts, b: DatasetCounts): DatasetCounts {
     rows: a.rows + b.rows,
     lists: a.lists + b.lists,
     nullListIdRows: a.nullListIdRows + b.nullListIdRows,
+    nullItemIdRows: a.nullItemIdRows + b.nullItemIdRows,
     listSizeCounts: sizes,
     singletonLists: a.singletonLists + b.singletonLists,
     listsWithDuplicateItems: a.listsWithDuplicateItems + b.listsWithDuplicateItems,
@@ -43,6 +44,7 @@ export const EMPTY_DATASET: DatasetCounts = {
   rows: 0,
   lists: 0,
   nullListIdRows: 0,
+  nullItemIdRows: 0,
   listSizeCounts: [],
   singletonLists: 0,
   listsWithDuplicateItems: 0,
@@ -129,19 +131,27 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     const parts = days.map((d) => d.features[f.name]).filter((p): p is FeatureProfile => p !== undefined);
     if (f.kind === 'categorical') {
       const cats = parts as CategoricalProfile[];
-      const categories: Record<string, number> = {};
+      const merged = new Map<string, number>();
       let quality: QualityCounts | null = null;
       let withinList: WithinListCounts | null = null;
+      let distinct = 0;
+      let other = 0;
       for (const p of cats) {
-        for (const [k, v] of Object.entries(p.categories)) categories[k] = (categories[k] ?? 0) + v;
+        for (const [k, v] of p.categories) merged.set(k, (merged.get(k) ?? 0) + v);
+        other += p.otherRows;
         quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
         withinList = addWithinList(withinList, p.withinList);
+        distinct = Math.max(distinct, p.distinct);
       }
+      // Bounded like a day: the heavy hitters of the window, the rest as one bucket.
+      const bounded = boundCategories(merged, config.source.maxCategories, other);
       features[f.name] = {
         kind: 'categorical',
         quality: quality ?? emptyQualityCounts(),
-        categories,
-        distinct: Object.keys(categories).length,
+        categories: bounded.kept,
+        otherRows: bounded.other,
+        // The union of the days' categories is not known once each day is bounded: the largest daily count stands for it.
+        distinct,
         withinList,
       };
       continue;
@@ -155,8 +165,9 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       quality = quality === null ? p.quality : mergeQualityCounts(quality, p.quality);
       withinList = addWithinList(withinList, p.withinList);
       totalFinite += p.quality.finite;
-      if (p.mean !== null) weightedMean += p.mean * p.quality.finite;
     }
+    // Weights before products: a mean near 1e308 times a count would overflow.
+    for (const p of nums) if (p.mean !== null && totalFinite > 0) weightedMean += p.mean * (p.quality.finite / totalFinite);
     // Pool each day's sample in proportion to its finite values.
     const pieces: Float64Array[] = [];
     let pooled = 0;
@@ -185,7 +196,7 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
       binCounts: countsOverBins(spec, merged, q),
       sortedSample: merged,
       distinct: distinctCountSorted(merged),
-      mean: totalFinite > 0 ? weightedMean / totalFinite : null,
+      mean: totalFinite > 0 ? weightedMean : null,
       withinList,
     };
   }

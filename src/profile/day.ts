@@ -4,7 +4,10 @@
  */
 import type { Config } from '../config/index.ts';
 import {
+  addToSplitSum,
   binCountsSorted,
+  boundCategories,
+  meanOfSplitSum,
   distinctCountSorted,
   isFlatList,
   listAggregate,
@@ -13,6 +16,7 @@ import {
   ruleViolated,
   type BinSpec,
   type QualityCounts,
+  type SplitSum,
 } from '../stats/index.ts';
 import { featureAssociation, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
 import { NULL_POSITION, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
@@ -56,7 +60,12 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
   let listsWithoutPositive = 0;
   let scratch = new Float64Array(64);
   let nullListIdRows = 0;
-  for (let i = 0; i < cols.rows; i++) if (cols.listOf[i]! < 0) nullListIdRows++;
+  let nullItemIdRows = 0;
+  for (let i = 0; i < cols.rows; i++) {
+    if (cols.listOf[i]! < 0) nullListIdRows++;
+    // A null item id hashes to NaN (never equal to another, so never a duplicate).
+    if (Number.isNaN(cols.itemHash[i]!)) nullItemIdRows++;
+  }
 
   for (let l = 0; l < cols.lists; l++) {
     const a = g.start[l]!;
@@ -110,6 +119,7 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
     rows: cols.rows,
     lists: cols.lists,
     nullListIdRows,
+    nullItemIdRows,
     listSizeCounts: Array.from(sizes),
     singletonLists,
     listsWithDuplicateItems,
@@ -133,12 +143,13 @@ export function numericProfile(
 
   const finite = new Float64Array(quality.finite);
   let k = 0;
-  let sum = 0;
+  // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
+  const sum: SplitSum = { small: 0, largeScaled: 0 };
   for (let i = 0; i < values.length; i++) {
     const v = values[i]!;
     if (Number.isFinite(v)) {
       finite[k++] = v;
-      sum += v;
+      addToSplitSum(sum, v);
     }
   }
   const sorted = radixSortedCopy(finite);
@@ -171,7 +182,7 @@ export function numericProfile(
     binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
     sortedSample: sorted,
     distinct: distinctCountSorted(sorted),
-    mean: k > 0 ? sum / k : null,
+    mean: k > 0 ? meanOfSplitSum(sum, k) : null,
     withinList,
   };
   if (feature.scope === 'item' && g.ranking !== undefined) {
@@ -196,7 +207,7 @@ export function countsOverBins(bins: BinSpec, sortedFinite: Float64Array, q: Qua
   return counts;
 }
 
-function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, feature: Config['features'][number]): CategoricalProfile {
+function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, feature: Config['features'][number], maxCategories: number): CategoricalProfile {
   const col = cols.categorical[fi]!;
   const counts = new Float64Array(col.dictionary.length);
   let nulls = 0;
@@ -205,10 +216,11 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
     if (c < 0) nulls++;
     else counts[c]!++;
   }
-  const categories: Record<string, number> = {};
+  const all = new Map<string, number>();
   col.dictionary.forEach((name, c) => {
-    categories[name] = counts[c]!;
+    if (counts[c]! > 0) all.set(name, counts[c]!);
   });
+  const { kept: categories, other: otherRows } = boundCategories(all, maxCategories);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -234,7 +246,7 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
     withinList = { listsJudged, flatLists, ruleViolations: 0 };
   }
   const quality: QualityCounts = { rows: cols.rows, nulls, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: cols.rows - nulls };
-  return { kind: 'categorical', quality, categories, distinct: col.dictionary.length, withinList };
+  return { kind: 'categorical', quality, categories, otherRows, distinct: all.size, withinList };
 }
 
 /**
@@ -278,7 +290,7 @@ export async function buildDayProfile(cols: DayColumns, config: Config, bins: Re
   const numericProfiles = profiler(cols, g, numeric, config, bins);
   const dataset = datasetCounts(cols, g);
   config.features.forEach((f, fi) => {
-    if (f.kind === 'categorical') features[f.name] = categoricalProfile(cols, g, fi, f);
+    if (f.kind === 'categorical') features[f.name] = categoricalProfile(cols, g, fi, f, config.source.maxCategories);
   });
   (await numericProfiles).forEach((p, i) => {
     features[config.features[numeric[i]!]!.name] = p;

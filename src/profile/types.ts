@@ -44,8 +44,18 @@ export interface NumericProfile {
 export interface CategoricalProfile {
   kind: 'categorical';
   quality: QualityCounts;
-  /** Rows per category (nulls are in quality.nulls). */
-  categories: Record<string, number>;
+  /**
+   * Rows per category (nulls are in quality.nulls). A Map, not an object: category values are
+   * data, and `constructor` or `__proto__` must be keys like any other. At most
+   * source.maxCategories entries, the most frequent; the rest are counted in otherRows.
+   */
+  categories: Map<string, number>;
+  /** Rows in categories beyond the kept ones. */
+  otherRows: number;
+  /**
+   * Distinct categories (after truncation to source.maxCategoryLength): of the day, or for a
+   * baseline the largest daily count among its days.
+   */
   distinct: number;
   withinList: WithinListCounts | null;
 }
@@ -76,12 +86,18 @@ export interface DatasetCounts {
   lists: number;
   /** Rows whose list id is null (they belong to no list and are not evaluated per list). */
   nullListIdRows: number;
+  /** Rows whose item id is null (with or without a list id; never counted as duplicates). */
+  nullItemIdRows: number;
   /** Lists per size; index i holds lists of size i + 1, the last entry lists of size >= its index + 1. */
   listSizeCounts: number[];
   singletonLists: number;
   listsWithDuplicateItems: number;
   listsWithPositionGaps: number;
-  /** Label counts, when a label column is configured. */
+  /**
+   * Label counts over the rows that have a list id, when a label column is configured.
+   * labelRows are the rows with a label (not null, not NaN); rows without one are left out
+   * of the positive rate (they are not negatives) and are counted by null_label_ratio.
+   */
   labelRows: number;
   labelPositives: number;
   listsWithoutPositive: number;

@@ -27,7 +27,7 @@
  * with the pool does, which errs toward higher (quieter) thresholds.
  */
 import type { Config } from '../config/index.ts';
-import { binCountsSorted, binEdgesFromSorted, categoryPsi, distinctCountSorted, psi, type BinSpec } from '../stats/index.ts';
+import { NULL_CATEGORY, OTHER_CATEGORY, binCountsSorted, binEdgesFromSorted, categoryPsi, distinctCountSorted, psi, type BinSpec } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import { thinSorted } from './baseline.ts';
 import type { CategoricalProfile, DayProfile, FeatureVariation, NumericProfile } from './types.ts';
@@ -81,8 +81,12 @@ export function distinctLadder(sorted: Float64Array): number[] {
   return out;
 }
 
-function categoryCounts(p: CategoricalProfile): Record<string, number> {
-  return { ...p.categories, ...(p.quality.nulls > 0 ? { '(null)': p.quality.nulls } : {}) };
+/** A day's category counts with its other bucket and its nulls as bins of their own (Map keys: category names are data). */
+function categoryCounts(p: CategoricalProfile): Map<string, number> {
+  const out = new Map(p.categories);
+  if (p.otherRows > 0) out.set(OTHER_CATEGORY, p.otherRows);
+  if (p.quality.nulls > 0) out.set(NULL_CATEGORY, p.quality.nulls);
+  return out;
 }
 
 /**
@@ -119,21 +123,21 @@ export function numericVariation(days: readonly { date: string; profile: Numeric
 /** The leave-one-out PSI of a categorical feature over its baseline days. */
 export function categoricalVariation(days: readonly { date: string; profile: CategoricalProfile }[]): FeatureVariation {
   const counts = days.map((d) => categoryCounts(d.profile));
-  const total: Record<string, number> = {};
-  for (const c of counts) for (const [k, v] of Object.entries(c)) total[k] = (total[k] ?? 0) + v;
+  const total = new Map<string, number>();
+  for (const c of counts) for (const [k, v] of c) total.set(k, (total.get(k) ?? 0) + v);
   const psiLoo: number[] = [];
   const looDays: string[] = [];
   days.forEach((d, i) => {
-    const rest: Record<string, number> = {};
+    const rest = new Map<string, number>();
     let restSum = 0;
-    for (const [k, v] of Object.entries(total)) {
-      const r = v - (counts[i]![k] ?? 0);
+    for (const [k, v] of total) {
+      const r = v - (counts[i]!.get(k) ?? 0);
       if (r > 0) {
-        rest[k] = r;
+        rest.set(k, r);
         restSum += r;
       }
     }
-    if (restSum <= 0 || Object.keys(counts[i]!).length === 0) return;
+    if (restSum <= 0 || counts[i]!.size === 0) return;
     looDays.push(d.date);
     psiLoo.push(categoryPsi(rest, counts[i]!).psi);
   });

@@ -2,9 +2,9 @@
  * One day end to end: source -> profiles -> checks -> store. A plain async function of its
  * dependencies and a date; it knows nothing of schedules, HTTP or the command line.
  *
- * Nothing is half-written: the day's findings, its alert state and its run record are
- * saved in one store transaction at the end; a failure before that leaves every stored
- * result as it was and records only a failed run.
+ * Nothing is half-written: the day's findings, its alert state, its run record, and the day
+ * profiles and baseline it computed are saved in one store transaction at the end; a
+ * failure before that leaves every stored result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
 import { applyAlertState, baselineExtremeBounds, evaluateDay, snapshotMissingFinding, type OutcomeInput } from '../checks/index.ts';
@@ -19,13 +19,12 @@ import { addDays, baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
 export interface RunStore {
-  saveRun(report: Report): Promise<void>;
+  /** The report, and what the run computed for later runs, in one transaction. */
+  saveRun(report: Report, artefacts?: { profileFingerprint: string; dayProfiles: readonly DayProfile[]; baseline: BaselineProfile | null }): Promise<void>;
   recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string }): Promise<void>;
   previousFindings(beforeDate: string): Promise<{ runDate: string; findings: Finding[] } | null>;
   loadBaseline(fingerprint: string): Promise<BaselineProfile | null>;
-  saveBaseline(profile: BaselineProfile): Promise<void>;
   loadDayProfiles(fingerprint: string, dates: readonly string[]): Promise<Map<string, DayProfile>>;
-  saveDayProfile(fingerprint: string, profile: DayProfile): Promise<void>;
 }
 
 export interface RunDeps {
@@ -51,7 +50,8 @@ export function configFingerprint(config: Config): string {
 /** Everything that changes a day's profile (not thresholds: those apply later). */
 export function profileFingerprint(config: Config): string {
   return sha256({
-    v: 1,
+    // 2: category counts stored as Maps, bounded and cut (source.maxCategories, maxCategoryLength).
+    v: 2,
     source: config.source,
     features: config.features.map(({ thresholds: _t, ...f }) => f),
     sampleSize: config.baseline.sampleSize,
@@ -87,7 +87,7 @@ function throwIfAborted(signal: AbortSignal | undefined): void {
 async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: BaselineProfile['bins'] | null, fineBins: BaselineProfile['fineBins'] | null = null, extremeBounds: PushdownSpecs['extremeBounds'] = null): Promise<DayProfile> {
   if (deps.config.source.engine === 'pushdown') return readPushdownProfile(deps, plan, date, { bins, fineBins: fineBins ?? null, extremeBounds });
   const t0 = performance.now();
-  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length }));
+  const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength }));
   const t1 = performance.now();
   const profile = await buildDayProfile(cols, deps.config, bins, threadedProfiler());
   deps.log.debug('day profiled', { date, rows: cols.rows, readSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
@@ -103,7 +103,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   const { agg, ranking, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, deps.config, plan, date, specs);
     const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: deps.config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength });
     return { agg, ranking, cols };
   });
   const t1 = performance.now();
@@ -113,8 +113,20 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   return profile;
 }
 
-/** Loads the baseline of a window from the store, or builds it from stored day profiles and the source. */
-async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineProfile> {
+/** A run's baseline, and what it computed to get it (to be saved with the run). */
+interface BaselineResult {
+  baseline: BaselineProfile;
+  /** True when the baseline was merged by this run (not loaded from the store). */
+  fresh: boolean;
+  /** Baseline days profiled from the source by this run. */
+  newDays: DayProfile[];
+}
+
+/**
+ * Loads the baseline of a window from the store, or builds it from stored day profiles and
+ * the source. Writes nothing: the caller saves what was computed with the run.
+ */
+async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<BaselineResult> {
   const { config, store, log } = deps;
   const wanted = baselineDates(config.baseline.window, runDate);
   const rows = await readSource(deps, 'counting the baseline days', (c) => countDays(c, plan, wanted));
@@ -124,24 +136,24 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   const fingerprint = sha256({ profileFp, days: dates.map((d) => [d, rows.get(d)]) });
   const cached = await store.loadBaseline(fingerprint);
   // A baseline stored before per-day variation existed is rebuilt from the stored day profiles.
-  if (cached !== null && cached.variation !== undefined) return cached;
+  if (cached !== null && cached.variation !== undefined) return { baseline: cached, fresh: false, newDays: [] };
 
   const stored = await store.loadDayProfiles(profileFp, dates);
   const days: DayProfile[] = [];
+  const newDays: DayProfile[] = [];
   for (const date of dates) {
     throwIfAborted(deps.signal);
     let day = stored.get(date);
     if (day === undefined || day.totalRows !== rows.get(date)) {
       log.info('profiling baseline day', { date });
       day = capDayProfile(await readProfile(deps, plan, date, null), daySampleCap(config));
-      await store.saveDayProfile(profileFp, day);
+      newDays.push(day);
     }
     days.push(day);
   }
   const window = { type: config.baseline.window.type, from: wanted[0] ?? runDate, to: wanted[wanted.length - 1] ?? runDate };
   const baseline = mergeBaseline(days, config, { fingerprint, window, createdAt: (deps.now?.() ?? new Date()).toISOString() });
-  await store.saveBaseline(baseline);
-  return baseline;
+  return { baseline, fresh: true, newDays };
 }
 
 /**
@@ -199,17 +211,15 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
       return p;
     });
     const tBaseline = performance.now();
-    const stored = await ensureBaseline(deps, plan, runDate);
+    const built = await ensureBaseline(deps, plan, runDate);
     // The pushdown engine counts the day into fine bins too (a stored baseline may predate them).
-    const baseline = deps.config.source.engine === 'pushdown' ? withFineBins(stored) : stored;
+    const baseline = deps.config.source.engine === 'pushdown' ? withFineBins(built.baseline) : built.baseline;
     deps.log.debug('baseline ready', { runDate, seconds: (performance.now() - tBaseline) / 1000 });
     throwIfAborted(deps.signal);
     const current = await readProfile(deps, plan, runDate, baseline.bins, baseline.fineBins ?? null, deps.config.source.engine === 'pushdown' ? extremeBoundsOf(deps.config, baseline) : null);
     throwIfAborted(deps.signal);
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
-    const tSave = performance.now();
-    await deps.store.saveDayProfile(profileFingerprint(deps.config), capDayProfile(current, daySampleCap(deps.config)));
-    deps.log.debug('day profile stored', { runDate, seconds: (performance.now() - tSave) / 1000 });
+    const dayProfiles = [...built.newDays, capDayProfile(current, daySampleCap(deps.config))];
 
     const outcome = await laggedOutcome(deps, plan, runDate);
     const drafts = evaluateDay(deps.config, baseline, current, outcome);
@@ -218,8 +228,8 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings);
     throwIfAborted(deps.signal);
     const tRun = performance.now();
-    await deps.store.saveRun(report);
-    deps.log.debug('run stored', { runDate, seconds: (performance.now() - tRun) / 1000 });
+    await deps.store.saveRun(report, { profileFingerprint: profileFingerprint(deps.config), dayProfiles, baseline: built.fresh ? built.baseline : null });
+    deps.log.debug('run stored', { runDate, dayProfiles: dayProfiles.length, newBaseline: built.fresh, seconds: (performance.now() - tRun) / 1000 });
     const durationSeconds = (Date.parse(report.finishedAt) - started.getTime()) / 1000;
     deps.log.info('run completed', { runDate, status: report.status, findings: findings.length, durationSeconds });
     return { report, durationSeconds };

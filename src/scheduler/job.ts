@@ -10,10 +10,13 @@ import { errorFields } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { addDays, baselineDates, dateInZone, dateRange, recordMissingSnapshot, runDay, type RunDeps, type RunStore } from '../run/index.ts';
 import { countDays, planSource } from '../source/index.ts';
+import type { PruneResult, RetentionPolicy } from '../store/index.ts';
+import { retentionPolicy } from './retention.ts';
 
 export interface JobStore extends RunStore {
   latestEvaluatedDate(): Promise<string | null>;
   storedDates(from: string, to: string): Promise<string[]>;
+  prune(policy: RetentionPolicy, today: string): Promise<PruneResult>;
 }
 
 export interface JobDeps extends RunDeps {
@@ -99,7 +102,9 @@ export type DayOutcome =
  * Runs the due dates at `now`, oldest first. A date that is not ready is recorded as a
  * critical "snapshot missing or late" finding once its deadline has passed (days before
  * the target always have), and otherwise left waiting for the next try. Stops at the first
- * failure so that days are never stored out of order behind a broken one.
+ * failure so that days are never stored out of order behind a broken one. After a day was
+ * stored, prunes the store by its retention policy (a failed prune is logged, not fatal: it
+ * is tried again after the next run).
  */
 export async function dailyJob(deps: JobDeps, now: Date, options: { deadlinePassed: boolean }): Promise<DayOutcome[]> {
   const due = await datesDue(deps, now);
@@ -126,5 +131,20 @@ export async function dailyJob(deps: JobDeps, now: Date, options: { deadlinePass
       break;
     }
   }
+  if (outcomes.some((o) => o.outcome === 'stored' || o.outcome === 'missing')) await pruneStore(deps, now);
   return outcomes;
+}
+
+/** Applies the retention policy, counting ages from `now`'s date in the schedule's zone. */
+export async function pruneStore(deps: JobDeps, now: Date): Promise<PruneResult | null> {
+  const policy = retentionPolicy(deps.config);
+  if (policy === null) return null;
+  try {
+    const deleted = await deps.store.prune(policy, dateInZone(now, deps.config.schedule.timezone));
+    deps.log.info('store pruned', { ...deleted });
+    return deleted;
+  } catch (error) {
+    deps.log.warn('pruning the store failed', errorFields(error));
+    return null;
+  }
 }

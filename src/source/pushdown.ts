@@ -30,7 +30,7 @@ import { featureSource, type Config, type FeatureConfig } from '../config/index.
 import { quoteIdent, type PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
-import { emptyQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { LARGE_MAGNITUDE, LARGE_SCALE_EXP, boundCategories, emptyQualityCounts, meanOfSplitSum, type BinSpec, type QualityCounts, type SplitSum } from '../stats/index.ts';
 import type { SourcePlan } from './plan.ts';
 
 /** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
@@ -66,7 +66,8 @@ export interface NumericAggregates {
   quality: QualityCounts;
   /** Counts of finite values per bin of the counting spec (fine bins when given, else the PSI bins); empty without a spec. */
   counts: number[];
-  sum: number;
+  /** Sum of the finite values, split so that it cannot overflow (stats/safesum.ts). */
+  sum: SplitSum;
   min: number | null;
   max: number | null;
   /** Finite values beyond the extreme-value bounds, when the specs gave bounds for this feature. */
@@ -76,18 +77,12 @@ export interface NumericAggregates {
 export interface DayAggregates {
   dataset: DatasetCounts;
   numeric: Record<string, NumericAggregates>;
-  categorical: Record<string, { rows: number; nulls: number; categories: Record<string, number> }>;
+  categorical: Record<string, { rows: number; nulls: number; categories: Map<string, number> }>;
   withinList: Record<string, WithinListCounts>;
 }
 
 /** Lists longer than this share the last list-size bin (the stream engine's MAX_LIST_SIZE_BIN). */
 const LIST_SIZE_BINS = 100;
-
-/**
- * Values above this magnitude are summed as numeric: float8 sums of fewer than 1e18 values
- * below it cannot overflow.
- */
-const HUGE = 1e290;
 
 /** Value-pass code of a jsonb value that is not a number (null codes are SQL NULL). */
 const CODE_TYPE_ERROR = -5;
@@ -215,7 +210,7 @@ function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: n
   const where = featureSource(f, config.source.featuresColumn);
   if ('jsonbColumn' in where) {
     const key = p.add(where.key, 'text');
-    if (f.kind === 'categorical') return { feature: f, value: `(${quoteIdent(where.jsonbColumn)} ->> ${key})`, typeError: null };
+    if (f.kind === 'categorical') return { feature: f, value: cutCategory(`(${quoteIdent(where.jsonbColumn)} ->> ${key})`, config, p), typeError: null };
     const j = `(${quoteIdent(where.jsonbColumn)} -> ${key})`;
     // As the stream reader parses jsonb text: numbers, true/false as 1/0, null; anything else is a type error.
     const value = `(CASE jsonb_typeof(${j}) WHEN 'number' THEN (${j})::float8 WHEN 'boolean' THEN (CASE WHEN ${j} = 'true'::jsonb THEN 1 ELSE 0 END)::float8 END)`;
@@ -223,7 +218,13 @@ function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: n
   }
   const fp = plan.features.find((x) => x.index === index);
   if (fp === undefined) throw new DataError(`feature ${f.name} is not in the source plan`);
-  return { feature: f, value: fp.expression, typeError: null };
+  return { feature: f, value: f.kind === 'categorical' ? cutCategory(fp.expression, config, p) : fp.expression, typeError: null };
+}
+
+/** A category value cut as stats/categorical.ts truncateCategory cuts it (left() counts characters, as it does). */
+function cutCategory(v: string, config: Config, p: Params): string {
+  const max = p.add(config.source.maxCategoryLength, 'int4');
+  return `(CASE WHEN length(${v}) > ${max} THEN left(${v}, ${max}) || '\u2026' ELSE ${v} END)`;
 }
 
 /** PostgreSQL sorts NaN above every number, so "finite" must exclude it explicitly. */
@@ -266,6 +267,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   const inner: string[] = [
     `(${listId} IS NULL) AS nl`,
     `count(*) AS n`,
+    `count(*) - count(${item}) AS ni`,
     `(count(${item}) <> count(DISTINCT ${item})) AS dup`,
     // Positions must be n distinct consecutive integers starting at 0 or 1 (nulls are gaps).
     `coalesce(count(${pos}) < count(*) OR count(DISTINCT ${pos}) < count(*) OR min(${pos}) NOT IN (0, 1) OR max(${pos})::int8 - min(${pos})::int8 <> count(*) - 1, true) AS gap`,
@@ -287,16 +289,21 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
       code = `(CASE WHEN count(${fs.value}) >= 2 THEN 1 + CASE WHEN min(${fs.value}) = max(${fs.value}) THEN 2 ELSE 0 END ELSE 0 END)`;
     } else {
       const fin = finite(fs.value);
+      // As stats/withinlist.ts: values of magnitude >= LARGE_MAGNITUDE are counted, not summed or squared (no overflow).
+      // (A literal, not a parameter: a parameter the statement ends up not using has no type.)
+      const small = `${fin} AND abs(${fs.value}) < ${LARGE_MAGNITUDE.toExponential()}::float8`;
       const a = {
         c: `count(*) FILTER (WHERE ${fin})`,
         n: `(count(*) FILTER (WHERE ${fin}))::float8`,
         mn: `min(${fs.value}) FILTER (WHERE ${fin})`,
         mx: `max(${fs.value}) FILTER (WHERE ${fin})`,
-        s: `sum(${fs.value}) FILTER (WHERE ${fin})`,
-        ss: `sum(${fs.value} * ${fs.value}) FILTER (WHERE ${fin})`,
+        s: `coalesce(sum(${fs.value}) FILTER (WHERE ${small}), 0)`,
+        ss: `coalesce(sum(${fs.value} * ${fs.value}) FILTER (WHERE ${small}), 0)`,
         d: `count(DISTINCT ${fs.value}) FILTER (WHERE ${fin})`,
       };
-      const rule = f.withinList === undefined ? 'false' : ruleSql(f.withinList.rule, a, lp.add(f.withinList.tolerance, 'float8'));
+      const large = `count(*) FILTER (WHERE ${fin} AND NOT (${small}))`;
+      // A non-flat list holding a large value breaks every rule (see ruleViolated).
+      const rule = f.withinList === undefined ? 'false' : `(${large} > 0 OR ${ruleSql(f.withinList.rule, a, lp.add(f.withinList.tolerance, 'float8'))})`;
       code = `(CASE WHEN ${a.c} >= 2 THEN 1 + CASE WHEN ${a.mn} = ${a.mx} THEN 2 WHEN ${rule} THEN 4 ELSE 0 END ELSE 0 END)`;
     }
     inner.push(`${code} AS w${i}`);
@@ -304,7 +311,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   });
   const sizeCap = lp.add(LIST_SIZE_BINS, 'int8');
   const wl = wlNames.length === 0 ? `'{}'::int8[]` : `ARRAY[${wlNames.map((w) => `sum(${w} & 1), sum((${w} >> 1) & 1), sum(${w} >> 2)`).join(', ')}]::int8[]`;
-  const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows,
+  const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows, sum(ni) AS ni,
        count(*) FILTER (WHERE dup) AS dup, count(*) FILTER (WHERE gap) AS gap,
        sum(ly) AS ly, sum(lp) AS lp, count(*) FILTER (WHERE lp = 0) AS nopos,
        ${wl} AS wl
@@ -342,11 +349,12 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  // float8 sums raise SQLSTATE 22003 on overflow (ten values of 1e308 do): values beyond
-  // HUGE are summed as numeric apart, the rest as float8 (one comparison per value).
-  const huge = vp.add(HUGE, 'float8');
-  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE NOT abs(v.x) > ${huge}) AS s,
-       (sum(v.x::numeric) FILTER (WHERE abs(v.x) > ${huge} AND abs(v.x) < 'Infinity'::float8))::text AS hs, min(v.x) AS lo, max(v.x) AS hi
+  // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+  const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
+  const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE abs(v.x) < ${largeAt}) AS s,
+       sum(v.x * ${scale}) FILTER (WHERE abs(v.x) >= ${largeAt} AND v.x > '-Infinity'::float8 AND v.x < 'Infinity'::float8) AS sl,
+       min(v.x) AS lo, max(v.x) AS hi
   FROM ${plan.relation}
        CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
  WHERE ${plan.dateColumn} = ${vDate}
@@ -374,14 +382,15 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
   const q = buildPushdownQueries(config, plan, date, specs);
   await preparePushdownSession(client);
 
-  const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
+  const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; ni: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
   const sizes = new Array<number>(LIST_SIZE_BINS).fill(0);
-  const dataset: DatasetCounts = { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
+  const dataset: DatasetCounts = { rows: 0, lists: 0, nullListIdRows: 0, nullItemIdRows: 0, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
   const itemFeatures = config.features.filter((f) => f.scope === 'item');
   const wlSums = new Array<number>(itemFeatures.length * 3).fill(0);
   for (const r of listRes.rows) {
     const rows = Number(r.rows);
     dataset.rows += rows;
+    dataset.nullItemIdRows += Number(r.ni);
     // Rows without a list id form one group of their own and belong to no list.
     if (r.nl) {
       dataset.nullListIdRows += rows;
@@ -405,15 +414,15 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
   });
 
-  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; hs: string | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
   const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name])]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
   for (const f of config.features) {
-    if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: {} };
+    if (f.kind === 'categorical') categorical[f.name] = { rows: 0, nulls: 0, categories: new Map() };
     else {
       const spec = countingSpec(specs, f.name);
-      numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: 0, min: null, max: null };
+      numeric[f.name] = { quality: emptyQualityCounts(), counts: spec === undefined ? [] : new Array<number>(spec.edges.length + spec.pointMass.filter(Boolean).length + 1).fill(0), sum: { small: 0, largeScaled: 0 }, min: null, max: null };
       const bounds = specs.extremeBounds?.[f.name];
       if (bounds !== undefined) numeric[f.name]!.extreme = { lower: bounds.lower, upper: bounds.upper, below: 0, above: 0 };
     }
@@ -425,7 +434,7 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       const cat = categorical[f.name]!;
       cat.rows += n;
       if (r.c === null) cat.nulls += n;
-      else cat.categories[r.c] = (cat.categories[r.c] ?? 0) + n;
+      else cat.categories.set(r.c, (cat.categories.get(r.c) ?? 0) + n);
       continue;
     }
     const a = numeric[f.name]!;
@@ -444,9 +453,10 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       q.finite += n;
       if (d.outOfRange) q.outOfRange += n;
       if (a.counts.length > 0) a.counts[d.bin]! += n;
+      a.sum.small += r.s ?? 0;
+      a.sum.largeScaled += r.sl ?? 0;
       if (a.extreme !== undefined && d.beyond === -1) a.extreme.below += n;
       if (a.extreme !== undefined && d.beyond === 1) a.extreme.above += n;
-      a.sum += (r.s ?? 0) + Number(r.hs ?? 0);
       if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
       if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
@@ -468,7 +478,8 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
     if (f.kind === 'categorical') {
       const c = agg.categorical[f.name]!;
       const quality: QualityCounts = { ...emptyQualityCounts(), rows: c.rows, nulls: c.nulls, finite: c.rows - c.nulls };
-      const profile: CategoricalProfile = { kind: 'categorical', quality, categories: c.categories, distinct: Object.keys(c.categories).length, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
+      const { kept: categories, other: otherRows } = boundCategories(c.categories, config.source.maxCategories);
+      const profile: CategoricalProfile = { kind: 'categorical', quality, categories, otherRows, distinct: c.categories.size, withinList: f.scope === 'item' ? agg.withinList[f.name]! : null };
       features[f.name] = profile;
       continue;
     }
@@ -500,7 +511,7 @@ export function assemblePushdownProfile(date: string, agg: DayAggregates, sample
       binCounts,
       sortedSample,
       distinct,
-      mean: a.quality.finite > 0 ? a.sum / a.quality.finite : null,
+      mean: a.quality.finite > 0 ? meanOfSplitSum(a.sum, a.quality.finite) : null,
       withinList: f.scope === 'item' ? agg.withinList[f.name]! : null,
     };
     if (fine !== undefined) profile.fineBinCounts = a.counts;

@@ -8,7 +8,7 @@ import { Writable } from 'node:stream';
 import { copyOut, type PoolClient } from '../db/index.ts';
 import { NULL_POSITION, type DayColumns } from '../profile/index.ts';
 import { DataError } from '../errors.ts';
-import { MISSING_NULL, MISSING_TYPE_ERROR } from '../stats/index.ts';
+import { MISSING_NULL, MISSING_TYPE_ERROR, truncateCategory } from '../stats/index.ts';
 import { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
 import type { SourcePlan } from './plan.ts';
 
@@ -67,6 +67,7 @@ class DaySink implements TupleSink {
   constructor(
     plan: SourcePlan,
     private readonly out: DayColumns,
+    private readonly maxCategoryLength: number,
   ) {
     this.kind = [Col.ListId, Col.ItemId, Col.Position];
     this.feature = [-1, -1, -1];
@@ -153,7 +154,9 @@ class DaySink implements TupleSink {
           cat.codes[row] = -1;
           return;
         }
-        const value = buf.toString('utf8', start, start + length);
+        // Only the first maxCategoryLength characters matter (at most 4 bytes each in UTF-8).
+        const max = this.maxCategoryLength;
+        const value = truncateCategory(buf.toString('utf8', start, start + Math.min(length, 4 * max + 4)), max);
         const codes = this.categoryCodes[fi]!;
         let code = codes.get(value);
         if (code === undefined) {
@@ -186,6 +189,8 @@ export interface ReadDayOptions {
   /** Keep at most about this many rows, as whole lists chosen by a hash of the list id. */
   maxRows: number;
   featureCount: number;
+  /** Category values are cut to this many characters (source.maxCategoryLength); default 200. */
+  maxCategoryLength?: number;
 }
 
 /** md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. */
@@ -238,7 +243,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
   const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
-  const sink = new DaySink(plan, out);
+  const sink = new DaySink(plan, out, options.maxCategoryLength ?? 200);
   const parser = new CopyBinaryParser(plan.selectList.length, sink);
   const stream = copyOut(client, sql);
   await pipeline(

@@ -26,7 +26,10 @@ export {
 export type { QualityCounts } from './quality.ts';
 export { WITHIN_LIST_RULES, isFlatList, listAggregate, listSizeCounts, ruleViolated } from './withinlist.ts';
 export type { ListAggregate, WithinListRule } from './withinlist.ts';
-export { categoryPsi } from './categorical.ts';
+export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCategory } from './categorical.ts';
+export type { CategoryCounts } from './categorical.ts';
+export { LARGE_MAGNITUDE, LARGE_SCALE_EXP, addToSplitSum, meanOfSplitSum } from './safesum.ts';
+export type { SplitSum } from './safesum.ts';
 export { RankScratch, averageRanksInto, rhoFromRanks, spearmanInto, spearmanRho } from './spearman.ts';
 export { POSITION_BUCKET_LABELS, POSITION_BUCKET_UPPER, ndcgAtK, positionBucket, reciprocalRank } from './ranking-outcome.ts';
 export { addToMeanSums, dailyMeanShift, emptyMeanSums, meanOfSums, mergeMeanSums, varianceOfSums } from './daily-mean-shift.ts';

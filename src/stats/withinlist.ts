@@ -6,6 +6,7 @@
  * finite non-null values) and the same verdict follows.
  */
 import { StatsInputError } from './errors.ts';
+import { LARGE_MAGNITUDE } from './safesum.ts';
 import { requireInteger, requireNonNegative } from './validate.ts';
 
 /** Over the finite non-null values of one feature in one list. */
@@ -13,9 +14,12 @@ export interface ListAggregate {
   count: number;
   min: number;
   max: number;
+  /** Sum and sum of squares of the values below LARGE_MAGNITUDE (so neither can overflow). */
   sum: number;
   sumSq: number;
   distinct: number;
+  /** Values with |x| >= LARGE_MAGNITUDE (not in sum and sumSq). Optional for aggregates built by hand: 0. */
+  large?: number;
 }
 
 export type WithinListRule = 'minmax' | 'zscore' | 'rank' | 'sum_to_one';
@@ -26,7 +30,8 @@ export const WITHIN_LIST_RULES: readonly WithinListRule[] = ['minmax', 'zscore',
  * Aggregate of one feature over one list (count, min, max, sum, sum of squares, distinct).
  *
  * What: over the rows rows[start .. end) (row indexes of one list into `values`), only rows
- * whose missing code is 0 and whose value is finite. For a list with no such value:
+ * whose missing code is 0 and whose value is finite. Values of magnitude LARGE_MAGNITUDE or
+ * more are counted in `large` and left out of sum and sumSq, which therefore never overflow. For a list with no such value:
  * count 0, min +Infinity, max -Infinity, sum 0, sumSq 0 (the identities of min, max and +;
  * SQL returns null there). distinct is the number of different values, or -1 when
  * `wantDistinct` is false.
@@ -68,6 +73,7 @@ export function listAggregate(
   let max = -Infinity;
   let sum = 0;
   let sumSq = 0;
+  let large = 0;
   for (let t = start; t < end; t++) {
     const r = rows[t];
     if (!(Number.isInteger(r) && r >= 0 && r < values.length)) {
@@ -78,8 +84,11 @@ export function listAggregate(
     if (!Number.isFinite(x)) continue;
     if (x < min) min = x;
     if (x > max) max = x;
-    sum += x;
-    sumSq += x * x;
+    // A large value would overflow the sum of squares (above about 1.3e154); it is counted instead.
+    if (Math.abs(x) < LARGE_MAGNITUDE) {
+      sum += x;
+      sumSq += x * x;
+    } else large++;
     if (buf !== null) buf[count] = x;
     count++;
   }
@@ -92,7 +101,7 @@ export function listAggregate(
       for (let i = 1; i < count; i++) if (part[i] !== part[i - 1]) distinct++;
     }
   }
-  return { count, min, max, sum, sumSq, distinct };
+  return { count, min, max, sum, sumSq, distinct, large };
 }
 
 /**
@@ -150,6 +159,12 @@ export function ruleViolated(rule: WithinListRule, agg: ListAggregate, tolerance
     throw new StatsInputError(`${fn} requires finite min, max, sum and sumSq for a list of ${n} values`);
   }
   const tol = tolerance;
+  // A list holding a value of magnitude >= LARGE_MAGNITUDE (1e100) that is not flat breaks
+  // every rule: minmax and rank need values near [0, 1] and 1..n, sum_to_one shares near
+  // [0, 1] (or a negative one below -tol), and a z-score of a list of n values is at most
+  // sqrt(n - 1) in magnitude. (Tolerances are at most 1e6, see the config schema.) Deciding
+  // it here keeps the squares of such values out of the arithmetic.
+  if ((agg.large ?? 0) > 0 && WITHIN_LIST_RULES.includes(rule)) return agg.min !== agg.max;
   switch (rule) {
     case 'minmax':
       if (agg.min === agg.max) return false;

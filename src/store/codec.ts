@@ -6,8 +6,9 @@
  * - Everything else of a profile goes to jsonb. JSON has no NaN, infinities, -0 or
  *   typed arrays (JSON.stringify writes null, null, 0 and an object of indices), and
  *   bin edges often start at -Infinity; those values are written as small tagged
- *   objects and restored on read. No JSON library in the project does this, hence
- *   the few lines here.
+ *   objects and restored on read. A Map (category counts) is a tagged list of [key, value]
+ *   pairs, so a category named `__proto__` or `constructor` is a key like any other. No
+ *   JSON library in the project does this, hence the few lines here.
  */
 import { StoreError } from '../errors.ts';
 
@@ -92,11 +93,17 @@ export function encodeJson(value: unknown): unknown {
     return { [TAG]: name, v: typedToBase64(name, value as unknown as ArrayLike<number>) };
   }
   if (Array.isArray(value)) return value.map(encodeJson);
+  if (value instanceof Map) return { [TAG]: 'Map', v: [...value].map(([k, v]) => [k, encodeJson(v)]) };
   const out: Record<string, unknown> = {};
   for (const [k, v] of Object.entries(value)) {
-    if (v !== undefined) out[k] = encodeJson(v);
+    if (v !== undefined) setOwn(out, k, encodeJson(v));
   }
   return out;
+}
+
+/** out[k] = v as an own property, even for k = "__proto__" (plain assignment would set the prototype). */
+function setOwn(out: Record<string, unknown>, k: string, v: unknown): void {
+  Object.defineProperty(out, k, { value: v, enumerable: true, writable: true, configurable: true });
 }
 
 /** Reverses encodeJson. */
@@ -106,11 +113,14 @@ export function decodeJson(value: unknown): unknown {
   const obj = value as Record<string, unknown>;
   const keys = Object.keys(obj);
   const tag = obj[TAG];
+  if (keys.length === 2 && tag === 'Map' && Array.isArray(obj['v'])) {
+    return new Map((obj['v'] as [string, unknown][]).map(([k, v]) => [k, decodeJson(v)]));
+  }
   if (keys.length === 2 && typeof tag === 'string' && typeof obj['v'] === 'string') {
     if (tag === 'number' && obj['v'] in SPECIAL_NUMBERS) return SPECIAL_NUMBERS[obj['v']];
     if (tag in TYPED) return typedFromBase64(tag as TypedArrayName, obj['v']);
   }
   const out: Record<string, unknown> = {};
-  for (const k of keys) out[k] = decodeJson(obj[k]);
+  for (const k of keys) setOwn(out, k, decodeJson(obj[k]));
   return out;
 }

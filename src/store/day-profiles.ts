@@ -3,7 +3,7 @@
  * baseline of any later window is a merge of stored days rather than a re-read of the
  * source.
  */
-import { quoteIdent, withReadOnlyTransaction, type Pool } from '../db/index.ts';
+import { quoteIdent, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import type { DayProfile } from '../profile/index.ts';
 import { decodeJson, encodeJson } from './codec.ts';
 import { wrapped } from './wrap.ts';
@@ -20,13 +20,16 @@ export class DayProfileStore {
 
   /** Saves (or replaces) one day's profile under a profile fingerprint. */
   async save(fingerprint: string, profile: DayProfile): Promise<void> {
+    await wrapped(`saving the day profile of ${profile.date} failed`, () => this.saveWith(this.pool, fingerprint, profile));
+  }
+
+  /** The same, on a given client (inside the caller's transaction, e.g. a run's). */
+  async saveWith(client: Pool | PoolClient, fingerprint: string, profile: DayProfile): Promise<void> {
     const json = JSON.stringify(encodeJson(profile));
-    await wrapped(`saving the day profile of ${profile.date} failed`, () =>
-      this.pool.query(
-        `INSERT INTO ${this.table} (fingerprint, snapshot_date, total_rows, profile) VALUES ($1, $2::date, $3, $4::jsonb)
-         ON CONFLICT (fingerprint, snapshot_date) DO UPDATE SET total_rows = EXCLUDED.total_rows, profile = EXCLUDED.profile, saved_at = now()`,
-        [fingerprint, profile.date, profile.totalRows, json],
-      ),
+    await client.query(
+      `INSERT INTO ${this.table} (fingerprint, snapshot_date, total_rows, profile) VALUES ($1, $2::date, $3, $4::jsonb)
+       ON CONFLICT (fingerprint, snapshot_date) DO UPDATE SET total_rows = EXCLUDED.total_rows, profile = EXCLUDED.profile, saved_at = now()`,
+      [fingerprint, profile.date, profile.totalRows, json],
     );
   }
 

@@ -2,5 +2,6 @@
  * The store: Plumbline's own tables (runs, findings, alert state, baselines, day
  * profiles) in the configured schema, and the migrations that create them.
  */
-export { Store, type AlertStateEntry, type FailureRecord, type HistoryPoint, type HistoryQuery, type RunStats } from './store.ts';
+export { Store, type RunArtefacts, type AlertStateEntry, type FailureRecord, type HistoryPoint, type HistoryQuery, type RunStats } from './store.ts';
 export { migrate, pendingMigrations, loadMigrations, migrationLockName, MIGRATIONS_DIRECTORY, type Migration, type MigrateOptions } from './migrate.ts';
+export { type RetentionPolicy, type PruneResult } from './retention.ts';

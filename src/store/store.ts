@@ -3,8 +3,9 @@
  * baseline profiles, in the tables created by sql/ (see the comments there).
  *
  * Guarantees:
- * - saveRun is one transaction: the run row, the date's findings (replaced whole) and,
- *   when the date is the newest evaluated one, the alert state. All of it or nothing.
+ * - saveRun is one transaction: the run row, the date's findings (replaced whole), when
+ *   the date is the newest evaluated one the alert state, and the day profiles and baseline
+ *   the run computed. All of it or nothing.
  * - recordFailure writes a failure row only; findings and alert state stay as they were.
  * - Dates are YYYY-MM-DD strings both ways (`date` columns are read as text); counts
  *   that PostgreSQL sends as bigint strings are converted with Number() on purpose.
@@ -18,6 +19,7 @@ import type { WithinListRule } from '../config/index.ts';
 import { bytesToFloat64, decodeJson, encodeJson, float64ToBytes } from './codec.ts';
 import { DayProfileStore } from './day-profiles.ts';
 import { migrate, pendingMigrations, type MigrateOptions } from './migrate.ts';
+import { prune, type PruneResult, type RetentionPolicy } from './retention.ts';
 import { wrapped } from './wrap.ts';
 
 const DATE_PATTERN = /^\d{4}-\d{2}-\d{2}$/;
@@ -28,6 +30,18 @@ export interface FailureRecord {
   finishedAt: string;
   error: string;
   configFingerprint: string;
+}
+
+/**
+ * What a run computed besides its report, saved in the run's transaction so that a failed
+ * or killed run leaves no trace of it: the day profiles it read from the source (baseline
+ * days and the evaluated day) and the baseline it merged, when it was not already stored.
+ */
+export interface RunArtefacts {
+  /** Profile fingerprint the day profiles are stored under. */
+  profileFingerprint: string;
+  dayProfiles: readonly DayProfile[];
+  baseline: BaselineProfile | null;
 }
 
 export interface RunStats {
@@ -141,16 +155,22 @@ export class Store {
   /**
    * Records a successful run in one transaction: the run row with its report, the
    * date's findings replaced whole, and the alert state when runDate is the newest
-   * evaluated date (a back-fill of an older date leaves the alert state alone).
+   * evaluated date (a back-fill of an older date leaves the alert state alone); with
+   * `artefacts`, the day profiles and baseline the run computed as well.
    */
-  async saveRun(report: Report): Promise<void> {
+  async saveRun(report: Report, artefacts?: RunArtefacts): Promise<void> {
     checkDate(report.runDate, 'report.runDate');
     const duration = durationSeconds(report.startedAt, report.finishedAt);
     const f = report.findings;
+    const baseline = artefacts !== undefined && artefacts.baseline !== null ? encodeBaseline(artefacts.baseline) : null;
     await wrapped(`saving the run of ${report.runDate} failed`, () =>
       withTransaction(this.pool, async (client) => {
         // Serialise writers of this store, so "is this the newest date?" cannot race.
         await advisoryXactLock(client, `store-write:${this.schema}`);
+        if (artefacts !== undefined) {
+          for (const day of artefacts.dayProfiles) await this.dayProfiles.saveWith(client, artefacts.profileFingerprint, day);
+        }
+        if (baseline !== null) await this.writeBaseline(client, baseline);
         const run = await client.query<{ id: string }>(
           `INSERT INTO ${this.runs}
              (run_date, started_at, finished_at, outcome, status, config_fingerprint, baseline_fingerprint, duration_seconds, report)
@@ -406,45 +426,36 @@ export class Store {
    * the rest of the profile goes to jsonb.
    */
   async saveBaseline(profile: BaselineProfile): Promise<void> {
-    checkDate(profile.window.from, 'window.from');
-    checkDate(profile.window.to, 'window.to');
-    const samples: { feature: string; bytes: Buffer; count: number }[] = [];
-    const features: Record<string, unknown> = {};
-    for (const [name, fp] of Object.entries(profile.features)) {
-      if ('sortedSample' in fp) {
-        const { sortedSample, ...rest } = fp;
-        samples.push({ feature: name, bytes: float64ToBytes(sortedSample), count: sortedSample.length });
-        features[name] = rest;
-      } else {
-        features[name] = fp;
-      }
-    }
-    const json = JSON.stringify(encodeJson({ ...profile, features }));
-    await wrapped(`saving baseline ${profile.fingerprint} failed`, () =>
-      withTransaction(this.pool, async (client) => {
-        const row = await client.query<{ id: string }>(
-          `INSERT INTO ${this.baselines} (fingerprint, window_type, window_from, window_to, sample_size, created_at, profile)
-           VALUES ($1, $2, $3, $4, $5, $6, $7::jsonb)
-           ON CONFLICT (fingerprint) DO UPDATE
-             SET window_type = EXCLUDED.window_type, window_from = EXCLUDED.window_from, window_to = EXCLUDED.window_to,
-                 sample_size = EXCLUDED.sample_size, created_at = EXCLUDED.created_at, profile = EXCLUDED.profile,
-                 saved_at = now()
-           RETURNING id::text AS id`,
-          [profile.fingerprint, profile.window.type, profile.window.from, profile.window.to, profile.sampleSize, profile.createdAt, json],
-        );
-        const id = row.rows[0]!.id;
-        await client.query(`DELETE FROM ${this.samples} WHERE baseline_id = $1`, [id]);
-        // One statement per feature: a Buffer parameter travels as raw binary (no hex text).
-        for (const s of samples) {
-          await client.query(`INSERT INTO ${this.samples} (baseline_id, feature, value_count, sample) VALUES ($1, $2, $3, $4)`, [
-            id,
-            s.feature,
-            s.count,
-            s.bytes,
-          ]);
-        }
-      }),
+    const encoded = encodeBaseline(profile);
+    await wrapped(`saving baseline ${profile.fingerprint} failed`, () => withTransaction(this.pool, (client) => this.writeBaseline(client, encoded)));
+  }
+
+  private async writeBaseline(client: PoolClient, b: EncodedBaseline): Promise<void> {
+    const { profile, json, samples } = b;
+    const row = await client.query<{ id: string }>(
+      `INSERT INTO ${this.baselines} (fingerprint, window_type, window_from, window_to, sample_size, created_at, profile)
+       VALUES ($1, $2, $3, $4, $5, $6, $7::jsonb)
+       ON CONFLICT (fingerprint) DO UPDATE
+         SET window_type = EXCLUDED.window_type, window_from = EXCLUDED.window_from, window_to = EXCLUDED.window_to,
+             sample_size = EXCLUDED.sample_size, created_at = EXCLUDED.created_at, profile = EXCLUDED.profile,
+             saved_at = now()
+       RETURNING id::text AS id`,
+      [profile.fingerprint, profile.window.type, profile.window.from, profile.window.to, profile.sampleSize, profile.createdAt, json],
     );
+    const id = row.rows[0]!.id;
+    await client.query(`DELETE FROM ${this.samples} WHERE baseline_id = $1`, [id]);
+    // One statement per feature: a Buffer parameter travels as raw binary (no hex text).
+    for (const s of samples) {
+      await client.query(`INSERT INTO ${this.samples} (baseline_id, feature, value_count, sample) VALUES ($1, $2, $3, $4)`, [id, s.feature, s.count, s.bytes]);
+    }
+  }
+
+  /**
+   * Deletes what the retention policy no longer keeps (see retention.ts), in one
+   * transaction; `today` (YYYY-MM-DD) is where ages count from.
+   */
+  prune(policy: RetentionPolicy, today: string): Promise<PruneResult> {
+    return prune(this.pool, this.schema, policy, today);
   }
 
   /** Saves (or replaces) one day's mergeable profile under a profile fingerprint. */
@@ -489,6 +500,30 @@ export class Store {
     }
     return profile;
   }
+}
+
+interface EncodedBaseline {
+  profile: BaselineProfile;
+  json: string;
+  samples: { feature: string; bytes: Buffer; count: number }[];
+}
+
+/** A baseline split for storage: numeric samples as float64 bytea, the rest as jsonb text. */
+function encodeBaseline(profile: BaselineProfile): EncodedBaseline {
+  checkDate(profile.window.from, 'window.from');
+  checkDate(profile.window.to, 'window.to');
+  const samples: EncodedBaseline['samples'] = [];
+  const features: Record<string, unknown> = {};
+  for (const [name, fp] of Object.entries(profile.features)) {
+    if ('sortedSample' in fp) {
+      const { sortedSample, ...rest } = fp;
+      samples.push({ feature: name, bytes: float64ToBytes(sortedSample), count: sortedSample.length });
+      features[name] = rest;
+    } else {
+      features[name] = fp;
+    }
+  }
+  return { profile, json: JSON.stringify(encodeJson({ ...profile, features })), samples };
 }
 
 function toFinding(r: FindingRow): Finding {

@@ -1,6 +1,6 @@
 /**
- * `npm run bench`: every benchmark in turn; each prints its own figures. The run
- * benchmark needs a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
+ * `npm run bench`: every benchmark in turn; each prints its own figures. The run, pushdown
+ * and store benchmarks need a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
  * PLUMBLINE_TEST_DATABASE_URL) and says so when there is none.
  */
 import { main as statsBench } from './stats.bench.ts';
@@ -8,6 +8,7 @@ import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
 import { main as rankingBench } from './ranking.bench.ts';
 import { main as trustBench } from './trust.bench.ts';
+import { main as storeBench } from './store.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -22,3 +23,5 @@ console.log('== the ranking checks: stream profile with and without, pushdown ra
 await rankingBench();
 console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
 await trustBench();
+console.log('== the store over 90 daily runs, with and without retention (tests/bench/store.bench.ts)');
+await storeBench();

@@ -16,7 +16,7 @@ import type { Config } from '../../src/config/index.ts';
 import { fineBinsFromSorted } from '../../src/profile/index.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
 import { planSource, readDayAggregates, refinementMap, valueCoding, widthBucketThresholds } from '../../src/source/index.ts';
-import { assignBin, binEdgesFromSorted, type BinSpec } from '../../src/stats/index.ts';
+import { assignBin, binEdgesFromSorted, meanOfSplitSum, type BinSpec } from '../../src/stats/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { BASELINE_DAYS, FAULTS, SCENARIO } from '../support/fault-days.ts';
 import { runDays } from '../support/run-days.ts';
@@ -45,7 +45,7 @@ const JSONB_SCENARIO: ScenarioOptions = {
 const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
 const QUALITY = ['null_ratio', 'nonfinite_ratio', 'type_error_ratio', 'out_of_range_ratio'];
 const WITHIN_LIST = ['flat_list_ratio', 'rule_violation_ratio'];
-const DATASET = ['row_count_ratio', 'list_count_ratio', 'list_size_psi', 'duplicate_item_ratio', 'position_gap_ratio', 'null_list_id_ratio', 'singleton_list_ratio', 'label_positive_ratio', 'no_positive_list_ratio'];
+const DATASET = ['row_count_ratio', 'list_count_ratio', 'list_size_psi', 'duplicate_item_ratio', 'position_gap_ratio', 'null_list_id_ratio', 'null_item_id_ratio', 'singleton_list_ratio', 'label_positive_ratio', 'no_positive_list_ratio', 'null_label_ratio'];
 
 const RANKING = ['position_rank_correlation', 'score_rank_correlation', 'mean_reciprocal_rank', 'ndcg', 'positive_position_psi'];
 
@@ -95,7 +95,7 @@ function expectAgreement(stream: Report, pushdown: Report): number {
       expect(sf.value, k).toBeLessThanOrEqual(pf.value + bound + 1e-12);
       expect(pf.evidence['m'], k).toBe(sf.evidence['m']);
       expect(pf.summary, k).toContain('fine bins');
-    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop' || sf.check === 'extreme_value_ratio') {
+    } else if (QUALITY.includes(sf.check) || WITHIN_LIST.includes(sf.check) || DATASET.includes(sf.check) || sf.check === 'constant' || sf.check === 'new_category_ratio' || sf.check === 'distinct_ratio_drop' || sf.check === 'extreme_value_ratio' || sf.check === 'category_cardinality') {
       expect(pf.value, k).toBe(sf.value);
       expect(pf.status, k).toBe(sf.status);
       expect(pf.evidence, k).toEqual(sf.evidence);
@@ -176,8 +176,15 @@ describe.skipIf(url === undefined)('pushdown engine against the stream engine (P
       expect(a.extreme).toEqual({ lower: -1, upper: 1000, below: Number(t.below), above: Number(t.above) });
       expect([a.min, a.max]).toEqual([t.lo, t.hi]);
       expect(a.max).toBe(1e308);
-      // The float8 sum of the day would overflow (SQLSTATE 22003); the numeric part keeps the mean defined, here +Infinity as in JavaScript.
-      expect(a.sum).toBe(Number.POSITIVE_INFINITY);
+      // The float8 sum of the day would overflow (SQLSTATE 22003); the split sum keeps it, and the
+      // mean, finite: the mean equals PostgreSQL's exact numeric avg over the finite values.
+      const exact = await admin.query<{ mean: string }>(
+        `SELECT avg(review_count::numeric)::text AS mean FROM ${table} WHERE snapshot_date = $1::date AND review_count > '-Infinity'::float8 AND review_count < 'Infinity'::float8`,
+        [overflow],
+      );
+      const mean = meanOfSplitSum(a.sum, a.quality.finite);
+      expect(Number.isFinite(mean)).toBe(true);
+      expect(mean / Number(exact.rows[0]!.mean)).toBeCloseTo(1, 12);
       // A feature without bounds counts nothing beyond.
       expect(agg.numeric['price']!.extreme).toBeUndefined();
     } finally {

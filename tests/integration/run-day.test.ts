@@ -140,10 +140,13 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
   it('counts null list ids, lists of one item and duplicated items instead of failing', async () => {
     const date = addDays(START, 60);
     const cols = 'snapshot_date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family';
-    await admin.query(
-      `INSERT INTO ${table} (${cols}) SELECT $1::date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family FROM ${table} WHERE snapshot_date = $2::date`,
-      [date, faultDay(0)],
-    );
+    // The day before is a clean copy too: a baseline day to rise over (without any, the ratios say "no baseline yet").
+    for (const d of [addDays(date, -1), date]) {
+      await admin.query(
+        `INSERT INTO ${table} (${cols}) SELECT $1::date, list_id, item_id, position, clicked, model_score, text_match, text_match_norm, semantic_similarity, price, price_z, popularity_rank, click_share, review_count, seller_rating, listing_age_days, photo_quality, query_length, ships_free, plant_family FROM ${table} WHERE snapshot_date = $2::date`,
+        [d, faultDay(0)],
+      );
+    }
     await admin.query(`UPDATE ${table} SET list_id = NULL WHERE snapshot_date = $1::date AND position = 3`, [date]);
     await admin.query(`INSERT INTO ${table} (${cols}) VALUES ($1::date, 'solo-list', 'solo-item', 1, 0, 0.5, 1, 0, 0, 10, 0, 1, 1, 3, 4.5, 10, 0.5, 3, 1, 'fern')`, [date]);
     const { report } = await runDay({ config, source: rt.source, store: rt.store, log: silentLogger }, date);
@@ -170,6 +173,9 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     const before = await rt.store.reportFor(date);
     expect(before).not.toBeNull();
     const statsBefore = await rt.store.runStats();
+    const kept = async (): Promise<string[]> =>
+      (await admin.query<{ n: string }>(`SELECT (SELECT count(*) FROM "${storeSchema}".day_profiles)::text || ' ' || (SELECT count(*) FROM "${storeSchema}".baselines)::text AS n`)).rows.map((r) => r.n);
+    const keptBefore = await kept();
     // A view that pauses before its rows, so the read is surely in flight when it is killed.
     const slow = `${sourceSchema}.slow_impressions`;
     await admin.query(`CREATE VIEW ${slow} AS SELECT i.* FROM ${table} i CROSS JOIN (SELECT pg_sleep(2)) AS pause`);
@@ -191,6 +197,8 @@ describe.skipIf(url === undefined)('run a day on a PostgreSQL server (PLUMBLINE_
     const statsAfter = await rt.store.runStats();
     expect(statsAfter.failures).toBe(statsBefore.failures + 1);
     expect(statsAfter.successes).toBe(statsBefore.successes);
+    // No day profile or baseline of the failed run (they are saved with its report, in one transaction).
+    expect(await kept()).toEqual(keptBefore);
   });
 
   it('names the missing column and its config path', async () => {

@@ -13,7 +13,8 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { advisoryKey, createPool, quoteIdent, sqlState, type Pool } from '../../src/db/index.ts';
 import { StoreError } from '../../src/errors.ts';
-import type { BaselineProfile, DayProfile, FeatureProfile } from '../../src/profile/types.ts';
+import { EMPTY_DATASET, type BaselineProfile, type DayProfile, type FeatureProfile } from '../../src/profile/index.ts';
+import { emptyQualityCounts } from '../../src/stats/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type CheckName, type Finding, type Report, type Status } from '../../src/report/contract.ts';
 import type { WithinListRule } from '../../src/config/index.ts';
 import { MIGRATIONS_DIRECTORY, Store, loadMigrations, migrate, migrationLockName, pendingMigrations } from '../../src/store/index.ts';
@@ -591,7 +592,22 @@ function storeSuite(target: Target): void {
         price_z: { kind: 'numeric', quality, binCounts: [400, 300, 297, 3], sortedSample: sample, distinct: sample.length, mean: -0, withinList: { listsJudged: 500, flatLists: 4, ruleViolations: 1 } },
         has_discount: { kind: 'binary', quality, binCounts: [700, 300, 0], sortedSample: Float64Array.of(0, 0, 1), distinct: 2, mean: 1 / 3, withinList: null },
         not_seen_yet: { kind: 'numeric', quality, binCounts: [0], sortedSample: new Float64Array(0), distinct: 0, mean: null, withinList: null },
-        colour: { kind: 'categorical', quality, categories: { teal: 600, ochre: 397, $plumbline: 3 }, distinct: 3, withinList: null },
+        // Category names are data: the codec's own tag and prototype names are keys like any other.
+        colour: {
+          kind: 'categorical',
+          quality,
+          categories: new Map([
+            ['teal', 600],
+            ['ochre', 390],
+            ['$plumbline', 3],
+            ['__proto__', 2],
+            ['constructor', 4],
+            ['toString', 1],
+          ]),
+          otherRows: 5,
+          distinct: 6,
+          withinList: null,
+        },
       };
       return {
         fingerprint,
@@ -604,6 +620,7 @@ function storeSuite(target: Target): void {
           rows: 1000,
           lists: 51,
           nullListIdRows: 0,
+          nullItemIdRows: 0,
           listSizeCounts: [1, 0, 50],
           singletonLists: 1,
           listsWithDuplicateItems: 0,
@@ -678,6 +695,7 @@ function storeSuite(target: Target): void {
           rows: 4,
           lists: 2,
           nullListIdRows: 0,
+          nullItemIdRows: 0,
           listSizeCounts: [0, 2],
           singletonLists: 0,
           listsWithDuplicateItems: 0,
@@ -710,6 +728,49 @@ function storeSuite(target: Target): void {
       expect(Object.is(sample[0], -0)).toBe(true);
       expect(sample[1]).toBe(5e-324);
       expect((await store.loadDayProfiles('prof-1', [])).size).toBe(0);
+    });
+  });
+
+  describe('retention', () => {
+    const numericFeature = (): FeatureProfile => ({ kind: 'numeric', quality: emptyQualityCounts(), binCounts: [], sortedSample: Float64Array.of(1, 2), distinct: 2, mean: 1.5, withinList: null });
+    const dayProfile = (date: string): DayProfile => ({ date, dataset: EMPTY_DATASET, totalRows: 0, totalLists: 0, sampled: false, features: { x: numericFeature() } });
+    const baselineOf = (fingerprint: string, date: string): BaselineProfile => ({
+      fingerprint,
+      window: { type: 'trailing', from: date, to: date },
+      days: [],
+      dataset: EMPTY_DATASET,
+      bins: {},
+      features: { x: numericFeature() },
+      sampleSize: 2,
+      createdAt: `${date}T06:30:00.000Z`,
+    });
+
+    it('saveRun stores the day profiles and baseline of its run; prune keeps what the policy keeps, alert state untouched', async () => {
+      const store = await freshStore();
+      const s = quoteIdent(store.schema);
+      const dates = ['2024-01-01', '2024-01-02', '2024-01-03', '2024-01-04', '2024-01-05'];
+      for (const [i, date] of dates.entries()) {
+        const r = report(date, dayFindings(i / 100));
+        r.baseline.fingerprint = `base-${date}`;
+        await store.saveRun(r, { profileFingerprint: 'prof-r', dayProfiles: [dayProfile(date)], baseline: baselineOf(`base-${date}`, date) });
+      }
+      expect(await count(`SELECT count(*) AS n FROM ${s}.day_profiles`)).toBe(5);
+      expect(await count(`SELECT count(*) AS n FROM ${s}.baselines`)).toBe(5);
+      expect((await store.loadDayProfiles('prof-r', ['2024-01-03'])).get('2024-01-03')).toEqual(dayProfile('2024-01-03'));
+      const alertsBefore = await store.alertStates();
+
+      // Today 2024-01-06: reports from 01-04 on (2 days), day profiles from 01-03 on (3 days) and
+      // 01-01 (a fixed window's day), baselines of the 2 newest evaluated dates (also the 2 newest saved).
+      const deleted = await store.prune({ reportDays: 2, dayProfileDays: 3, keepDayProfiles: { from: '2024-01-01', to: '2024-01-01' }, baselinesKept: 2 }, '2024-01-06');
+      expect(deleted).toEqual({ runs: 3, findings: 12, dayProfiles: 1, baselines: 3 });
+      expect(await store.storedDates('2024-01-01', '2024-01-06')).toEqual(['2024-01-04', '2024-01-05']);
+      expect([...(await store.loadDayProfiles('prof-r', dates)).keys()].sort()).toEqual(['2024-01-01', '2024-01-03', '2024-01-04', '2024-01-05']);
+      expect(await store.loadBaseline('base-2024-01-03')).toBeNull();
+      expect(await store.loadBaseline('base-2024-01-05')).toEqual(baselineOf('base-2024-01-05', '2024-01-05'));
+      // Samples go with their baseline.
+      expect(await count(`SELECT count(*) AS n FROM ${s}.baseline_samples`)).toBe(2);
+      expect(await store.alertStates()).toEqual(alertsBefore);
+      expect((await store.latestReport())?.runDate).toBe('2024-01-05');
     });
   });
 

@@ -279,9 +279,9 @@ describe('dataset checks', () => {
     expect(one(findings, null, 'singleton_list_ratio')).toMatchObject({ value: 0.2, score: 0, status: 'ok' });
     expect(one(findings, null, 'position_gap_ratio')).toMatchObject({ value: 0.1, score: 0, status: 'ok' });
     expect(findings.filter((f) => ['psi', 'new_category_ratio', 'row_count_ratio', 'list_size_psi'].includes(f.check))).toEqual([]);
-    // Without any baseline day the increase is over zero.
+    // Without any baseline day there is nothing to rise over: ok, and the summary says why.
     const none = evaluateDay(strict, { ...shortBase, days: [], dataset: dataset(0, 1, { rows: 0, lists: 0, listSizeCounts: [] }), features: {} }, cur);
-    expect(one(none, 'instrument', 'flat_list_ratio')).toMatchObject({ score: 0.3, status: 'critical' });
+    expect(one(none, 'instrument', 'flat_list_ratio')).toMatchObject({ value: 0.3, score: 0, status: 'ok', summary: expect.stringContaining('no baseline yet') });
   });
 
   it('an empty day gives only a critical snapshot_missing finding', () => {
@@ -299,5 +299,65 @@ describe('dataset checks', () => {
         evidence: { current: 0 },
       },
     ]);
+  });
+});
+
+describe('bounded categories and their cardinality', () => {
+  const cfg = config([{ name: 'shelf', kind: 'categorical' }]);
+  const withOther = (counts: Record<string, number>, otherRows: number, distinct: number) => ({ ...categorical(counts), otherRows, distinct, quality: quality(Object.values(counts).reduce((a, b) => a + b, 0) + otherRows) });
+
+  it('category_cardinality is the day\'s distinct count over the baseline\'s, status on the ratio (3 / 10 x)', () => {
+    const base = baseline(DS, { shelf: categorical({ fern: 60, moss: 40 }) });
+    const steady = evaluateDay(cfg, base, day('2025-03-03', DS, { shelf: categorical({ fern: 50, moss: 50 }) }));
+    expect(one(steady, 'shelf', 'category_cardinality')).toMatchObject({ value: 2, score: 1, status: 'ok' });
+    // 2 kept + 4,998 beyond the kept ones: 5,000 distinct against 2.
+    const exploded = evaluateDay(cfg, base, day('2025-03-03', DS, { shelf: withOther({ fern: 50, moss: 40 }, 10, 5000) }));
+    const card = one(exploded, 'shelf', 'category_cardinality');
+    expect(card).toMatchObject({ value: 5000, score: 2500, status: 'critical', evidence: { baseline: 2, current: 5000, keptCategories: 1000, otherShare: 0.1 } });
+    expect(card.summary).toContain('10.0% of rows beyond the 1,000 most frequent');
+    // The other bucket is compared as a bin, never called a new category.
+    expect(one(exploded, 'shelf', 'new_category_ratio')).toMatchObject({ value: 0, evidence: { unseen: [], unseenCount: 0 } });
+    expect((one(exploded, 'shelf', 'psi').evidence['bins'] as { bin: string }[]).map((b) => b.bin)).toContain('other categories');
+  });
+
+  it('when the baseline kept only its most frequent categories, a day\'s category outside them counts as "other", not as new', () => {
+    const base = baseline(DS, { shelf: withOther({ fern: 60, moss: 30 }, 10, 40) });
+    const cur = day('2025-03-03', DS, { shelf: categorical({ fern: 60, moss: 30, lichen: 10 }) });
+    const findings = evaluateDay(cfg, base, cur);
+    expect(one(findings, 'shelf', 'new_category_ratio')).toMatchObject({ value: 0, status: 'ok' });
+    // Same shares on both sides (60 / 30 / 10 with lichen in the other bucket): PSI 0.
+    expect(one(findings, 'shelf', 'psi')).toMatchObject({ value: 0, status: 'ok' });
+  });
+});
+
+describe('NULL item ids and labels, and the first run without a baseline', () => {
+  const cfg = config([{ name: 'a' }], { source: { table: 'shop.results', columns: { label: 'clicked' } } });
+  const labelled = (extra: Parameters<typeof dataset>[2] = {}) => dataset(10, 10, { labelRows: 100, labelPositives: 10, listsWithoutPositive: 0, ...extra });
+
+  it('null_item_id_ratio and null_label_ratio are increases over the baseline; null labels are left out of the positive rate', () => {
+    const base = baseline(labelled(), { a: numeric([1, 2]) });
+    // 5 rows without an item id; 20 rows without a label, 8 positives among the 80 labelled rows.
+    const cur = day('2025-03-03', labelled({ nullItemIdRows: 5, labelRows: 80, labelPositives: 8 }), { a: numeric([1, 2]) });
+    const findings = evaluateDay(cfg, base, cur);
+    expect(one(findings, null, 'null_item_id_ratio')).toMatchObject({ value: 0.05, score: 0.05, status: 'critical', evidence: { rows: 5 } });
+    expect(one(findings, null, 'null_label_ratio')).toMatchObject({ value: 0.2, score: 0.2, status: 'critical', evidence: { rows: 20 } });
+    // 8 / 80 = 10 %, as in the baseline: the unlabelled rows are not negatives.
+    expect(one(findings, null, 'label_positive_ratio')).toMatchObject({ value: 1, status: 'ok' });
+  });
+
+  it('without a single baseline day, every check against the baseline is ok and says "no baseline yet"', () => {
+    const empty = { ...baseline(dataset(0, 1, { rows: 0, lists: 0, listSizeCounts: [] }), {}), days: [] };
+    // Half the lists without a positive: against a baseline of 0 % this paged on the first run.
+    const cur = day('2025-03-03', labelled({ listsWithoutPositive: 5, nullItemIdRows: 3, listsWithDuplicateItems: 2 }), { a: numeric([1, 2], { quality: quality(3, { nulls: 1 }) }) });
+    const findings = evaluateDay(cfg, empty, cur);
+    expect(findings.filter((f) => f.status !== 'ok')).toEqual([]);
+    for (const check of ['no_positive_list_ratio', 'null_item_id_ratio', 'duplicate_item_ratio', 'null_label_ratio']) {
+      expect(one(findings, null, check).summary, check).toContain('no baseline yet');
+    }
+    expect(one(findings, null, 'no_positive_list_ratio')).toMatchObject({ value: 0.5, score: 0, evidence: { baseline: null } });
+    expect(one(findings, 'a', 'null_ratio').summary).toContain('no baseline yet');
+    // A non-nullable feature is judged against zero nulls without a baseline.
+    const strict = evaluateDay(config([{ name: 'a', nullable: false }], { source: { table: 'shop.results', columns: { label: 'clicked' } } }), empty, cur);
+    expect(one(strict, 'a', 'null_ratio')).toMatchObject({ score: 1 / 3, status: 'critical' });
   });
 });

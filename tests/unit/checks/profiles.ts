@@ -27,7 +27,7 @@ export function numeric(values: number[], options: { quality?: QualityCounts; bi
 
 export function categorical(categories: Record<string, number>, nulls = 0, withinList: WithinListCounts | null = null): CategoricalProfile {
   const rows = Object.values(categories).reduce((a, b) => a + b, 0) + nulls;
-  return { kind: 'categorical', quality: quality(rows, { nulls }), categories, distinct: Object.keys(categories).length, withinList };
+  return { kind: 'categorical', quality: quality(rows, { nulls }), categories: new Map(Object.entries(categories)), otherRows: 0, distinct: Object.keys(categories).length, withinList };
 }
 
 /** Lists of `size` items each, nothing wrong with them. */
@@ -37,6 +37,7 @@ export function dataset(lists: number, size: number, extra: Partial<DatasetCount
     rows: lists * size,
     lists,
     nullListIdRows: 0,
+    nullItemIdRows: 0,
     listSizeCounts,
     singletonLists: size === 1 ? lists : 0,
     listsWithDuplicateItems: 0,

@@ -50,6 +50,8 @@ describe('defaults', () => {
       engine: 'stream',
       pushdownAssociation: 'sample',
       maxRowsPerDay: 2_000_000,
+      maxCategories: 1000,
+      maxCategoryLength: 200,
       statementTimeoutSeconds: 900,
     });
     expect(c.features).toEqual([{ name: 'price', kind: 'numeric', scope: 'item', nullable: true }]);
@@ -65,7 +67,7 @@ describe('defaults', () => {
       readiness: { minRowFraction: 0.5, markerDateColumn: 'snapshot_date', retryEverySeconds: 300, deadlineMinutes: 360 },
     });
     expect(c.http).toEqual({ host: '127.0.0.1', port: 9467 });
-    expect(c.store).toEqual({ schema: 'plumbline' });
+    expect(c.store).toEqual({ schema: 'plumbline', retention: { enabled: true, reportDays: 400, dayProfileMinDays: 35, baselinesKept: 3 } });
   });
 
   it('applies every threshold default when the file omits thresholds (prefault of the section)', () => {

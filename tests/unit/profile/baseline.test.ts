@@ -36,13 +36,13 @@ function numericDay(sample: Float64Array, finite: number, nulls: number, withinL
 
 function categoricalDay(categories: Record<string, number>): CategoricalProfile {
   const rows = Object.values(categories).reduce((a, b) => a + b, 0);
-  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories, distinct: Object.keys(categories).length, withinList: null };
+  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories: new Map(Object.entries(categories)), otherRows: 0, distinct: Object.keys(categories).length, withinList: null };
 }
 
 // Day A: 3000 finite values in [0, 1); day B: 1000 finite values in [10, 11).
 const dayA: DayProfile = {
   date: '2025-03-01',
-  dataset: { rows: 3010, lists: 300, nullListIdRows: 10, listSizeCounts: [0, 0, 0, 0, 0, 0, 0, 0, 0, 300], singletonLists: 0, listsWithDuplicateItems: 2, listsWithPositionGaps: 1, labelRows: 3000, labelPositives: 150, listsWithoutPositive: 40 },
+  dataset: { rows: 3010, lists: 300, nullListIdRows: 10, nullItemIdRows: 4, listSizeCounts: [0, 0, 0, 0, 0, 0, 0, 0, 0, 300], singletonLists: 0, listsWithDuplicateItems: 2, listsWithPositionGaps: 1, labelRows: 3000, labelPositives: 150, listsWithoutPositive: 40 },
   totalRows: 3010,
   totalLists: 300,
   sampled: false,
@@ -50,7 +50,7 @@ const dayA: DayProfile = {
 };
 const dayB: DayProfile = {
   date: '2025-03-02',
-  dataset: { rows: 1000, lists: 200, nullListIdRows: 0, listSizeCounts: [0, 0, 0, 0, 200], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 3, labelRows: 1000, labelPositives: 20, listsWithoutPositive: 150 },
+  dataset: { rows: 1000, lists: 200, nullListIdRows: 0, nullItemIdRows: 1, listSizeCounts: [0, 0, 0, 0, 200], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 3, labelRows: 1000, labelPositives: 20, listsWithoutPositive: 150 },
   totalRows: 2000,
   totalLists: 400,
   sampled: true,
@@ -62,7 +62,7 @@ describe('mergeBaseline', () => {
 
   it('adds the dataset counts, list sizes of different lengths included', () => {
     const sizes = [0, 0, 0, 0, 200, 0, 0, 0, 0, 300];
-    expect(b.dataset).toEqual({ rows: 4010, lists: 500, nullListIdRows: 10, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 2, listsWithPositionGaps: 4, labelRows: 4000, labelPositives: 170, listsWithoutPositive: 190 });
+    expect(b.dataset).toEqual({ rows: 4010, lists: 500, nullListIdRows: 10, nullItemIdRows: 5, listSizeCounts: sizes, singletonLists: 0, listsWithDuplicateItems: 2, listsWithPositionGaps: 4, labelRows: 4000, labelPositives: 170, listsWithoutPositive: 190 });
     expect(b.days).toEqual([
       { date: '2025-03-01', rows: 3010, lists: 300 },
       { date: '2025-03-02', rows: 2000, lists: 400 }, // before sampling
@@ -75,8 +75,9 @@ describe('mergeBaseline', () => {
     expect(x.quality).toEqual({ rows: 4010, nulls: 10, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 2, finite: 4000 });
     expect(x.withinList).toEqual({ listsJudged: 500, flatLists: 4, ruleViolations: 5 });
     const colour = b.features['colour'] as CategoricalProfile;
-    expect(colour.categories).toEqual({ red: 2500, blue: 1010, green: 500 });
-    expect(colour.distinct).toBe(3);
+    expect(colour.categories).toEqual(new Map([['red', 2500], ['blue', 1010], ['green', 500]]));
+    // Each day is bounded, so the union is unknown: the largest daily distinct count stands for it.
+    expect(colour.distinct).toBe(2);
     expect(colour.quality.rows).toBe(4010);
   });
 
@@ -104,7 +105,7 @@ describe('mergeBaseline', () => {
   it('keeps every value when the samples together are smaller than sampleSize', () => {
     const small = mergeBaseline([{ ...dayA, features: { x: numericDay(spread(300, 0), 300, 0, null) } }, { ...dayB, features: { x: numericDay(spread(100, 10), 100, 0, null) } }], config, OPTIONS);
     expect((small.features['x'] as NumericProfile).sortedSample.length).toBe(400);
-    expect((small.features['colour'] as CategoricalProfile).categories).toEqual({});
+    expect((small.features['colour'] as CategoricalProfile).categories).toEqual(new Map());
   });
 
   it('gives an empty baseline for no days', () => {

@@ -38,9 +38,9 @@ describe('groupByList', () => {
  *   4   L2   G   null  null | 0.7   0        1    0.2   3     harp
  *   5   L1   E    2    0    | 0.5   2        1    0.5   2     violin
  *   6   L0   C    3    0    | 0.5   0.5/s    4    0.3   4     piano
- *   7   --   Y    2    0    | NaN   0        1    0.3   7     piano
+ *   7   --  null  2    0    | NaN   0        1    0.3   7     piano
  *   8   L1   F    3   null  | 1     3        2    0.5   2     piano
- *   9   L0   D    4    0    | 1     1.5/s    2    0.4   4     piano
+ *   9   L0  null  4    0    | 1     1.5/s    2    0.4   4     piano
  *
  * s = sqrt(1.25), the population standard deviation of 1, 2, 3, 4: L0's z values are the
  * z-scores of 1..4. L0 is a good list for every rule; L1 breaks minmax (min 0.1), zscore
@@ -49,7 +49,7 @@ describe('groupByList', () => {
  */
 const S = Math.sqrt(1.25);
 const LIST = [0, 1, -1, 0, 2, 1, 0, -1, 1, 0];
-const ITEM = ['A', 'E', 'X', 'B', 'G', 'E', 'C', 'Y', 'F', 'D'];
+const ITEM = ['A', 'E', 'X', 'B', 'G', 'E', 'C', null, 'F', null];
 const POSITION = [1, 0, 1, 2, NULL_POSITION, 2, 3, 2, 3, 4];
 const LABEL = [1, 0, 1, 0, Number.NaN, 0, 0, 0, Number.NaN, 0];
 const NORM = [0, 0.1, 0.9, Number.NaN, 0.7, 0.5, 0.5, Number.NaN, 1, 1];
@@ -81,7 +81,7 @@ function columns(): DayColumns {
     sampled: false,
     listOf: Int32Array.from(LIST),
     lists: 3,
-    itemHash: Float64Array.from(ITEM.map((i) => ITEM_HASH[i]!)),
+    itemHash: Float64Array.from(ITEM.map((i) => (i === null ? Number.NaN : ITEM_HASH[i]!))),
     position: Int32Array.from(POSITION),
     label: Float64Array.from(LABEL),
     numeric: [Float64Array.from(NORM), Float64Array.from(Z), Float64Array.from(RANK), Float64Array.from(SUM), Float64Array.from(QUERY), null],
@@ -101,6 +101,7 @@ describe('buildDayProfile on three lists', () => {
       rows: 10,
       lists: 3,
       nullListIdRows: 2,
+      nullItemIdRows: 2, // rows 7 (no list) and 9 (in L0, which then holds no duplicate)
       listSizeCounts: sizes,
       singletonLists: 1,
       listsWithDuplicateItems: 1, // L1 holds E twice
@@ -138,7 +139,8 @@ describe('buildDayProfile on three lists', () => {
     expect(p.features['instrument']).toEqual({
       kind: 'categorical',
       quality: { rows: 10, nulls: 1, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: 9 },
-      categories: { piano: 7, harp: 1, violin: 1 },
+      categories: new Map([['piano', 7], ['harp', 1], ['violin', 1]]),
+      otherRows: 0,
       distinct: 3,
       withinList: { listsJudged: 2, flatLists: 1, ruleViolations: 0 },
     });

@@ -16,11 +16,11 @@ function numericDay(values: Float64Array): NumericProfile {
 
 function categoricalDay(categories: Record<string, number>): CategoricalProfile {
   const rows = Object.values(categories).reduce((a, b) => a + b, 0);
-  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories, distinct: Object.keys(categories).length, withinList: null };
+  return { kind: 'categorical', quality: { rows, nulls: 0, nan: 0, posInf: 0, negInf: 0, typeErrors: 0, outOfRange: 0, finite: rows }, categories: new Map(Object.entries(categories)), otherRows: 0, distinct: Object.keys(categories).length, withinList: null };
 }
 
 function day(date: string, features: DayProfile['features']): DayProfile {
-  const ds = { rows: 0, lists: 0, nullListIdRows: 0, listSizeCounts: [], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
+  const ds = { rows: 0, lists: 0, nullListIdRows: 0, nullItemIdRows: 0, listSizeCounts: [], singletonLists: 0, listsWithDuplicateItems: 0, listsWithPositionGaps: 0, labelRows: 0, labelPositives: 0, listsWithoutPositive: 0 };
   return { date, dataset: ds, totalRows: 1, totalLists: 1, sampled: false, features };
 }
 

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { StatsInputError, categoryPsi, psi } from '../../../src/stats/index.ts';
+import { StatsInputError, boundCategories, categoryPsi, psi, truncateCategory } from '../../../src/stats/index.ts';
 
 describe('categoryPsi', () => {
   it('doc example: union of categories, unseen ones last, unseen share of current rows', () => {
@@ -38,5 +38,60 @@ describe('categoryPsi', () => {
     expect(() => categoryPsi({ a: 1 }, { a: 0 })).toThrow(/at least one current row/);
     expect(() => categoryPsi({ a: -1 }, { a: 1 })).toThrow(StatsInputError);
     expect(() => categoryPsi({ a: 1 }, { a: Number.NaN })).toThrow(StatsInputError);
+  });
+});
+
+describe('category values that are names of Object.prototype members (regression: counts lived in plain objects)', () => {
+  it('counts constructor, toString and __proto__ like any category', () => {
+    const base = new Map([
+      ['constructor', 50],
+      ['toString', 30],
+      ['__proto__', 20],
+    ]);
+    const cur = new Map([
+      ['constructor', 50],
+      ['toString', 30],
+      ['__proto__', 10],
+      ['hasOwnProperty', 10],
+    ]);
+    const r = categoryPsi(base, cur);
+    expect(r.categories).toEqual(['constructor', 'toString', '__proto__', 'hasOwnProperty']);
+    expect(r.unseen).toEqual(['hasOwnProperty']);
+    expect(r.unseenShare).toBe(0.1);
+    // Same as psi over the aligned counts (computed by this project's psi, checked against SciPy in psi.test.ts).
+    expect(r.psi).toBe(psi([50, 30, 20, 0], [50, 30, 10, 10]).psi);
+  });
+});
+
+describe('truncateCategory', () => {
+  it('keeps short values, cuts long ones to maxLength code points and marks them', () => {
+    expect(truncateCategory('abc', 3)).toBe('abc');
+    expect(truncateCategory('abcdef', 3)).toBe('abc\u2026');
+    expect(truncateCategory('x'.repeat(10_000), 200)).toBe(`${'x'.repeat(200)}\u2026`);
+    // Astral characters count once each, as PostgreSQL's length() and left() count them.
+    expect(truncateCategory('\u{1F600}\u{1F600}', 2)).toBe('\u{1F600}\u{1F600}');
+    expect(truncateCategory('\u{1F600}\u{1F600}\u{1F600}', 2)).toBe('\u{1F600}\u{1F600}\u2026');
+  });
+});
+
+describe('boundCategories', () => {
+  it('keeps the most frequent (ties by name) and counts the rest as other rows', () => {
+    const counts = new Map([
+      ['b', 3],
+      ['a', 3],
+      ['c', 5],
+      ['d', 1],
+    ]);
+    expect(boundCategories(counts, 2)).toEqual({
+      kept: new Map([
+        ['c', 5],
+        ['a', 3],
+      ]),
+      other: 4,
+    });
+    expect(boundCategories(counts, 4)).toEqual({ kept: counts, other: 0 });
+    // Rows already outside the kept categories add up.
+    expect(boundCategories(new Map([['x', 9], ['y', 2]]), 1, 7)).toEqual({ kept: new Map([['x', 9]]), other: 9 });
+    expect(() => boundCategories(counts, 0)).toThrow(/limit that is an integer >= 1/);
   });
 });

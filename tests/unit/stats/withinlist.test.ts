@@ -18,13 +18,36 @@ function agg(values: number[]): ListAggregate {
 
 const TOL = 1e-6;
 
+describe('large finite values (regression: a square above about 1.3e154 overflowed and the rule check threw)', () => {
+  const rules = ['minmax', 'zscore', 'rank', 'sum_to_one'] as const;
+  for (const big of [1e154, 1e200, 1e308, -1e308]) {
+    it(`${big}: counted apart, sums stay finite, and a non-flat list breaks every rule without throwing`, () => {
+      const a = listAggregate(Float64Array.of(0, 0.5, big), [0, 1, 2], 0, 3, null, true);
+      expect(a).toEqual({ count: 3, min: Math.min(0, big), max: Math.max(0.5, big), sum: 0.5, sumSq: 0.25, distinct: 3, large: 1 });
+      for (const rule of rules) expect(ruleViolated(rule, a, 1e-6)).toBe(true);
+      // Flat at a large value: the flat-list check's, not a rule violation.
+      const flat = listAggregate(Float64Array.of(big, big), [0, 1], 0, 2, null, true);
+      expect(isFlatList(flat)).toBe(true);
+      for (const rule of rules) expect(ruleViolated(rule, flat, 1e-6)).toBe(false);
+    });
+  }
+
+  it('values just below 1e100 are still summed and squared: a z-scored list of them is judged exactly', () => {
+    // 9.9e99 and -9.9e99 have mean 0 and population sd 9.9e99: a zscore violation, decided by the arithmetic.
+    const a = listAggregate(Float64Array.of(9.9e99, -9.9e99), [0, 1], 0, 2, null, false);
+    expect(a.large).toBe(0);
+    expect(Number.isFinite(a.sumSq)).toBe(true);
+    expect(ruleViolated('zscore', a, 1e-6)).toBe(true);
+  });
+});
+
 describe('listAggregate', () => {
   it('doc example and the empty list', () => {
     expect(listAggregate(Float64Array.of(0, 1, 0.5, 9), [0, 1, 2], 0, 3, null, true)).toEqual({
-      count: 3, min: 0, max: 1, sum: 1.5, sumSq: 1.25, distinct: 3,
+      count: 3, min: 0, max: 1, sum: 1.5, sumSq: 1.25, distinct: 3, large: 0,
     });
     expect(listAggregate(Float64Array.of(1), [0], 0, 0, null, true)).toEqual({
-      count: 0, min: Infinity, max: -Infinity, sum: 0, sumSq: 0, distinct: 0,
+      count: 0, min: Infinity, max: -Infinity, sum: 0, sumSq: 0, distinct: 0, large: 0,
     });
   });
 
@@ -34,9 +57,9 @@ describe('listAggregate', () => {
     // rows of two lists: list A = rows 0..4 in a shuffled order, list B = rows 5, 6
     const rows = [3, 0, 4, 2, 1, 5, 6];
     const a = listAggregate(values, rows, 0, 5, missing, true);
-    expect(a).toEqual({ count: 3, min: 2, max: 5, sum: 9, sumSq: 33, distinct: 2 });
+    expect(a).toEqual({ count: 3, min: 2, max: 5, sum: 9, sumSq: 33, distinct: 2, large: 0 });
     const b = listAggregate(values, rows, 5, 7, missing, false);
-    expect(b).toEqual({ count: 1, min: 100, max: 100, sum: 100, sumSq: 10000, distinct: -1 });
+    expect(b).toEqual({ count: 1, min: 100, max: 100, sum: 100, sumSq: 10000, distinct: -1, large: 0 });
   });
 
   it('reuses a scratch buffer when it is long enough, and still works when it is too short', () => {
