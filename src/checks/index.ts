@@ -1,5 +1,6 @@
 export { evaluateDay, snapshotMissingFinding } from './evaluate.ts';
 export { applyAlertState, farBeyondCritical, findingKey } from './alert-state.ts';
 export { statusAbove, statusBand, fmt, pct } from './status.ts';
+export { associationFindings, outcomeFindings, ownOutcome, type OutcomeInput } from './ranking.ts';
 export { baselineExtremeBounds } from './extremes.ts';
 export { learnThreshold, type LearnedThreshold } from './adaptive.ts';

@@ -7,16 +7,16 @@
  * failure before that leaves every stored result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
-import { applyAlertState, baselineExtremeBounds, evaluateDay, snapshotMissingFinding } from '../checks/index.ts';
+import { applyAlertState, baselineExtremeBounds, evaluateDay, snapshotMissingFinding, type OutcomeInput } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
 import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/index.ts';
-import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
+import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, readRankingAggregates, withRankingAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
 import { wasInterrupted } from './abort.ts';
-import { baselineDates } from './dates.ts';
+import { addDays, baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
 export interface RunStore {
@@ -106,14 +106,15 @@ async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: 
  */
 async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayProfile> {
   const t0 = performance.now();
-  const { agg, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
+  const { agg, ranking, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, deps.config, plan, date, specs);
+    const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: deps.config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
     const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength });
-    return { agg, cols };
+    return { agg, ranking, cols };
   });
   const t1 = performance.now();
   const sample = await buildDayProfile(cols, deps.config, null, threadedProfiler());
-  const profile = assemblePushdownProfile(date, agg, sample, deps.config, specs);
+  const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, deps.config, specs), ranking, sample, deps.config, plan.hasLabel);
   deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
   return profile;
 }
@@ -161,6 +162,29 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   return { baseline, fresh: true, newDays };
 }
 
+/**
+ * With outcome.labelLagDays = L > 0, the outcome checks judge the labels of runDate - L,
+ * which have matured since that day was profiled: its outcome and those of its own baseline
+ * window's days are re-read from the source now, in one read-only statement grouped by date
+ * (the ranking pass of the pushdown engine, restricted to list id, position and label; the
+ * stream engine uses it too, since both engines compute the same sums). Every day re-read is
+ * at least L days old. Undefined when labels do not lag (the day's own outcome is used).
+ */
+async function laggedOutcome(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<OutcomeInput | undefined> {
+  const lag = deps.config.outcome.labelLagDays;
+  if (lag === 0 || !plan.hasLabel) return undefined;
+  const date = addDays(runDate, -lag);
+  const window = baselineDates(deps.config.baseline.window, date);
+  const t0 = performance.now();
+  const agg = await readSource(deps, `re-reading the labels of ${date} and its baseline days`, (client) => readRankingAggregates(client, deps.config, plan, [date, ...window], { association: false, outcome: true }));
+  deps.log.debug('lagged outcome read', { runDate, outcomeDate: date, days: agg.size, seconds: (performance.now() - t0) / 1000 });
+  return {
+    date,
+    current: agg.get(date)?.outcome ?? null,
+    baselineDays: window.filter((d) => agg.has(d)).map((d) => ({ date: d, outcome: agg.get(d)!.outcome })),
+  };
+}
+
 /** The baseline's extreme-value bounds per numeric feature, which the pushdown engine counts against. */
 function extremeBoundsOf(config: Config, baseline: BaselineProfile): NonNullable<PushdownSpecs['extremeBounds']> {
   const out: NonNullable<PushdownSpecs['extremeBounds']> = {};
@@ -203,7 +227,8 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     // The evaluated day becomes a stored day profile too, for the baselines of later days.
     const dayProfiles = [...built.newDays, capDayProfile(current, daySampleCap(deps.config))];
 
-    const drafts = evaluateDay(deps.config, baseline, current);
+    const outcome = await laggedOutcome(deps, plan, runDate);
+    const drafts = evaluateDay(deps.config, baseline, current, outcome);
     const previous = await deps.store.previousFindings(runDate);
     const findings = applyAlertState(deps.config, runDate, drafts, previous?.findings ?? null);
     const report = assembleReport(deps.config, runDate, started, now(), fingerprint, baseline, current, findings);

@@ -14,3 +14,4 @@ export {
   type PushdownSpecs,
   type ValueCoding,
 } from './pushdown.ts';
+export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';

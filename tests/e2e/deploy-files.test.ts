@@ -14,7 +14,7 @@ import { parseAllDocuments, parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/index.ts';
 import { ALL_ALERTS, DEFAULT_RUNBOOK_URL, alertNameFor, runbookAnchor } from '../../src/exporter/index.ts';
-import { CHECK_KIND, type CheckName } from '../../src/report/contract.ts';
+import { CHECK_KIND, DATASET_CHECKS, type CheckName } from '../../src/report/contract.ts';
 import { findExecutable } from '../support/tools.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -104,7 +104,7 @@ describe('the alert rules', () => {
           return !re.test(check);
         });
         // Feature checks only match rules on plumbline_feature_*, dataset checks on plumbline_dataset_*.
-        const family = CHECK_KIND[check as CheckName] === 'dataset' ? 'plumbline_dataset_check_alerting' : 'plumbline_feature_check_alerting';
+        const family = (DATASET_CHECKS as readonly string[]).includes(check) ? 'plumbline_dataset_check_alerting' : 'plumbline_feature_check_alerting';
         if (selected && r.expr.includes(family)) out.add(r.alert);
       }
       return [...out];
