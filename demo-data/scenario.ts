@@ -35,7 +35,10 @@ export type FaultKind =
   | 'creeping_drift'
   | 'duplicate_items'
   | 'type_error'
-  | 'overflow';
+  | 'overflow'
+  | 'polarity_flip'
+  | 'shuffle_within_lists'
+  | 'order_scrambled';
 
 /**
  * One fault, active from `date` to `untilDate` (inclusive; default: `date` only).
@@ -50,7 +53,14 @@ export type FaultKind =
  * - list_truncation: fraction of each list kept [0.5]
  * - new_category: share of items moved to the new category [0.3]
  * - duplicate_items: fraction of lists (of 3 or more items) with one item twice [0.2]
- * - minmax_raw, flat_within_lists: no amount
+ * - order_scrambled: fraction of lists served in a random order [0.3]
+ * - minmax_raw, flat_within_lists, polarity_flip, shuffle_within_lists: no amount
+ *
+ * polarity_flip (a sort in the wrong direction: inside each list the item with the k-th
+ * largest value gets the k-th smallest), shuffle_within_lists (a join on the wrong key inside
+ * the list) and order_scrambled (a fallback ranker, a stale cache: the list is served in a
+ * random order, and users click what they are shown) keep every list's multiset of feature
+ * values, so every feature's day-wide distribution is the one of a clean day.
  */
 export interface FaultPlan {
   date: string;
@@ -136,8 +146,8 @@ export const DEMO_TABLE = 'demo.brindlemoss_impressions';
 export const DEMO_TABLE_JSONB = 'demo.brindlemoss_impressions_jsonb';
 
 /**
- * The demo's five weeks: 28 clean days (2025-02-03 to 2025-03-02), then a week in
- * which something breaks every day. README.md tells the story day by day and what
+ * The demo's five weeks and a day: 28 clean days (2025-02-03 to 2025-03-02), then eight
+ * days in which something breaks every day. README.md tells the story day by day and what
  * Plumbline should report; keep the two in step.
  */
 export const DEMO_FAULTS: FaultPlan[] = [
@@ -157,12 +167,14 @@ export const DEMO_FAULTS: FaultPlan[] = [
   { date: '2025-03-08', kind: 'new_category', feature: 'plant_family', amount: 0.3 },
   // Sat-Sun: a retrained embedding model ships without recalibration.
   { date: '2025-03-08', untilDate: '2025-03-09', kind: 'mean_shift', feature: 'semantic_similarity', amount: 0.6 },
+  // Mon (week six): a refactored join hands out the normalised text scores in reverse order inside each list.
+  { date: '2025-03-10', kind: 'polarity_flip', feature: 'text_match_norm' },
 ];
 
-/** The demo's scenario: five weeks, about 400 lists of about 20 items a day. */
+/** The demo's scenario: five weeks and a day, about 400 lists of about 20 items a day. */
 export const DEMO_SCENARIO: ScenarioOptions = {
   startDate: '2025-02-03',
-  days: 35,
+  days: 36,
   listsPerDay: 400,
   meanListSize: 20,
   seed: 20250203,
@@ -210,7 +222,7 @@ export function faultsOn(options: ScenarioOptions, date: string): FaultPlan[] {
 // ---------------------------------------------------------------- validation
 
 const FEATURE_BY_NAME = new Map(FEATURES.map((f) => [f.name, f]));
-const STRUCTURAL: ReadonlySet<FaultKind> = new Set(['list_truncation', 'duplicate_items']);
+const STRUCTURAL: ReadonlySet<FaultKind> = new Set(['list_truncation', 'duplicate_items', 'order_scrambled']);
 
 function validateOptions(options: ScenarioOptions): void {
   epochDay(options.startDate);
@@ -233,6 +245,7 @@ function validateOptions(options: ScenarioOptions): void {
     if (f.kind === 'minmax_raw' && spec.rule !== 'minmax') throw new RangeError(`${where}: needs a feature with the minmax rule`);
     if (f.kind === 'new_category' && spec.kind !== 'categorical') throw new RangeError(`${where}: needs a categorical feature`);
     if (f.kind === 'flat_within_lists' && spec.scope === 'list') throw new RangeError(`${where}: a list-level feature is flat already`);
+    if ((f.kind === 'polarity_flip' || f.kind === 'shuffle_within_lists') && (spec.scope === 'list' || spec.kind === 'categorical')) throw new RangeError(`${where}: needs an item-level numeric or binary feature`);
   }
 }
 
@@ -346,6 +359,7 @@ export function* generateDay(options: ScenarioOptions, date: string): Generator<
 
   const truncation = active.find((f) => f.kind === 'list_truncation');
   const duplication = active.find((f) => f.kind === 'duplicate_items');
+  const scrambling = active.find((f) => f.kind === 'order_scrambled');
   const valueFaults = active.filter((f) => !STRUCTURAL.has(f.kind));
 
   for (let l = 0; l < listCount; l++) {
@@ -400,7 +414,9 @@ export function* generateDay(options: ScenarioOptions, date: string): Generator<
       (c, k) =>
         1.1 * textNorm[k] + 1.6 * semantic[k] + 0.4 * c.item.photoQuality + 0.15 * Math.log1p(c.item.reviewCount) + 2 * share[k] + 0.3 * c.scoreNoise,
     );
-    const order = Array.from({ length: m }, (_, k) => k).sort((a, b) => score[b] - score[a] || a - b);
+    let order = Array.from({ length: m }, (_, k) => k).sort((a, b) => score[b] - score[a] || a - b);
+    // A fallback ranker serves the list in a random order; clicks follow what is shown.
+    if (scrambling !== undefined && faultRng.bernoulli(scrambling.amount ?? 0.3)) order = permutation(order, faultRng);
 
     // Columns in position order.
     const cols: Record<string, Value[]> = {};
@@ -526,10 +542,35 @@ function applyValueFault(f: FaultPlan, v: Value[], ctx: FaultContext): void {
         if (typeof x === 'number' && rng.bernoulli(f.amount ?? 0.01)) v[i] = x.toFixed(2).replace('.', ',');
       }
       return;
+    case 'polarity_flip': {
+      // The k-th largest value goes to the item that had the k-th smallest: same values, reversed order.
+      const idx = v.map((_, i) => i).filter((i) => typeof v[i] === 'number');
+      const byValue = [...idx].sort((a, b) => (v[a] as number) - (v[b] as number) || a - b);
+      const values = byValue.map((i) => v[i]);
+      byValue.forEach((i, r) => (v[i] = values[values.length - 1 - r]!));
+      return;
+    }
+    case 'shuffle_within_lists': {
+      const idx = v.map((_, i) => i).filter((i) => typeof v[i] === 'number');
+      const shuffled = permutation(idx.map((i) => v[i]), rng);
+      idx.forEach((i, r) => (v[i] = shuffled[r]!));
+      return;
+    }
     case 'list_truncation':
     case 'duplicate_items':
+    case 'order_scrambled':
       return;
   }
+}
+
+/** A uniformly random permutation (Fisher-Yates) of a copy of `x`. */
+function permutation<T>(x: readonly T[], rng: Random): T[] {
+  const out = [...x];
+  for (let i = out.length - 1; i > 0; i--) {
+    const j = rng.int(i + 1);
+    [out[i], out[j]] = [out[j]!, out[i]!];
+  }
+  return out;
 }
 
 // ---------------------------------------------------------------- within-list transforms

@@ -11,7 +11,7 @@ import { connectionSummary, envSetting, loadConfigFile, maskUrl } from './config
 import { ConfigError, EXIT, exitCodeFor, SourceError, StoreError } from './errors.ts';
 import { createLogger, errorFields, type Logger, type LogLevel } from './log.ts';
 import { renderTable, STATUS_LEVEL, type Report } from './report/index.ts';
-import { checkSource, configFingerprint, dateRange, isIsoDate, memoryEstimate, runDay } from './run/index.ts';
+import { checkRunnableDates, checkSource, configFingerprint, dateRange, isIsoDate, memoryEstimate, runDay, todayIn } from './run/index.ts';
 import { migrate } from './store/index.ts';
 import { openRuntime, type Runtime } from './runtime.ts';
 import { VERSION } from './version.ts';
@@ -147,6 +147,8 @@ export async function main(argv: string[]): Promise<number> {
       const failOn = values['fail-on'];
       if (failOn !== undefined && failOn !== 'warn' && failOn !== 'critical') throw usageError(`--fail-on must be warn or critical, got ${JSON.stringify(failOn)}`);
       return withRuntime(values, rest, log, async (rt) => {
+        // A future date or one before the first snapshot would store a bogus "latest" verdict.
+        await checkRunnableDates({ config: rt.config, source: rt.source }, date, date, new Date());
         await migrate(rt.storePool, rt.config.store.schema);
         const { report } = await runDay({ config: rt.config, source: rt.source, store: rt.store, log }, date);
         print(report, values.format, values.all);
@@ -159,6 +161,7 @@ export async function main(argv: string[]): Promise<number> {
       const to = requireDate(values, 'to');
       if (from > to) throw usageError('--from must not be after --to');
       return withRuntime(values, rest, log, async (rt) => {
+        await checkRunnableDates({ config: rt.config, source: rt.source }, from, to, new Date());
         await migrate(rt.storePool, rt.config.store.schema);
         const dates = dateRange(from, to);
         const done = new Set(values.force === true ? [] : await rt.store.storedDates(from, to));
@@ -187,7 +190,7 @@ export async function main(argv: string[]): Promise<number> {
       const which = values.date ?? 'latest';
       if (which !== 'latest' && !isIsoDate(which)) throw usageError(`--date: ${JSON.stringify(which)} is not a date written YYYY-MM-DD (or latest)`);
       return withRuntime(values, rest, log, async (rt) => {
-        const report = which === 'latest' ? await rt.store.latestReport() : await rt.store.reportFor(which);
+        const report = which === 'latest' ? await rt.store.latestReport(todayIn(rt.config, new Date())) : await rt.store.reportFor(which);
         if (report === null) {
           process.stderr.write(`no stored run for ${which}\n`);
           return EXIT.failOn;
@@ -199,7 +202,11 @@ export async function main(argv: string[]): Promise<number> {
     case 'serve': {
       const { serve } = await import('./scheduler/index.ts');
       const config = loadConfigFile(configPath(values, rest));
-      return serve({ config, log, openRuntime });
+      const code = await serve({ config, log, openRuntime, unhandledRejections: installRejectionPolicy(log) });
+      // serve() has closed everything it opened; a socket a dead peer still holds must not keep
+      // the process alive past its stop (an unref'd timer fires only if something else lingers).
+      setTimeout(() => process.exit(code), 1000).unref();
+      return code;
     }
     case 'demo': {
       // The demo needs demo-data/ from a source checkout, so the production build leaves it
@@ -212,6 +219,20 @@ export async function main(argv: string[]): Promise<number> {
     default:
       throw usageError(`unknown command ${JSON.stringify(command)}`);
   }
+}
+
+/**
+ * Process-level policy of the long-running service: a promise rejection that nothing handled
+ * is a bug, but one lost background task must not take the monitor down. It is logged and
+ * counted (plumbline_unhandled_rejections_total); the process keeps serving.
+ */
+function installRejectionPolicy(log: Logger): () => number {
+  let count = 0;
+  process.on('unhandledRejection', (reason: unknown) => {
+    count++;
+    log.error('unhandled promise rejection', errorFields(reason));
+  });
+  return () => count;
 }
 
 /** What the CLI needs of src/demo (see the 'demo' command). */

@@ -24,7 +24,8 @@ export function openRuntime(config: Config, log: Logger, env?: Readonly<Record<s
   const onError = (which: string) => (err: Error) => log.warn(`${which} connection error`, errorFields(err));
   const source = createPool({ url: conn.sourceUrl, applicationName: 'plumbline-source', statementTimeoutMs: config.source.statementTimeoutSeconds * 1000, onError: onError('source') });
   // A pool of its own even when both URLs are the same: source reads never queue behind store writes.
-  const storePool = createPool({ url: conn.storeUrl, applicationName: 'plumbline-store', statementTimeoutMs: 120_000, onError: onError('store') });
+  // query_timeout above statement_timeout: a half-open store connection fails the query instead of hanging it.
+  const storePool = createPool({ url: conn.storeUrl, applicationName: 'plumbline-store', statementTimeoutMs: 120_000, queryTimeoutMs: 150_000, onError: onError('store') });
   log.debug('connections', { source: maskUrl(conn.sourceUrl), store: maskUrl(conn.storeUrl) });
   const store = new Store(storePool, config.store.schema);
   return {

@@ -22,6 +22,7 @@ import {
   type BinSpec,
   type PsiResult,
 } from '../stats/index.ts';
+import { associationFindings, outcomeFindings, ownOutcome, type OutcomeInput } from './ranking.ts';
 import { learnThreshold, type LearnedThreshold } from './adaptive.ts';
 import { distinctFinding } from './distinct.ts';
 import { extremeFinding } from './extremes.ts';
@@ -74,9 +75,9 @@ function topBins(result: PsiResult, labels: readonly string[]): BinEvidence[] {
  * A PSI finding: status by effect size (thresholds), but ok while PSI stays within its
  * no-drift noise floor, (1/n + 1/m) x the chi-square(B - 1) quantile over the B bins in use.
  */
-function psiFinding(p: {
+export function psiFinding(p: {
   feature: string | null;
-  check: 'psi' | 'list_size_psi';
+  check: 'psi' | 'list_size_psi' | 'positive_position_psi';
   result: PsiResult;
   labels: readonly string[];
   t: AboveThreshold;
@@ -564,8 +565,11 @@ export function gateKs(config: Config, family: readonly { draft: FindingDraft; p
   });
 }
 
-/** All findings of one day, before alert hysteresis. */
-export function evaluateDay(config: Config, baseline: BaselineProfile, current: DayProfile): FindingDraft[] {
+/**
+ * All findings of one day, before alert hysteresis. `outcome` is the label outcome to judge
+ * when labels lag (an older day re-read at run time); by default the day's own.
+ */
+export function evaluateDay(config: Config, baseline: BaselineProfile, current: DayProfile, outcome?: OutcomeInput): FindingDraft[] {
   if (current.dataset.rows === 0) return [snapshotMissingFinding(current.date, 'the source has no rows for this date')];
   const ctx: Context = { config, baseline, current, hasBaseline: baseline.days.length >= config.baseline.minDays, noBaseline: baseline.days.length === 0 };
   const findings: FindingDraft[] = [];
@@ -579,5 +583,9 @@ export function evaluateDay(config: Config, baseline: BaselineProfile, current: 
   }
   gateKs(config, ksQueue);
   findings.push(...datasetFindings(ctx));
+  if (ctx.hasBaseline) {
+    findings.push(...associationFindings(config, baseline, current));
+    if (config.source.columns.label !== undefined) findings.push(...outcomeFindings(config, outcome ?? ownOutcome(baseline, current)));
+  }
   return findings;
 }

@@ -13,6 +13,7 @@ import type { Config } from '../config/index.ts';
 import { EMPTY_DATASET, WHOLE_DAY, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { benjaminiHochberg, chiSquareSurvival, ksPValue } from '../stats/index.ts';
 import { evaluateDay, gateKs, type FindingDraft } from './evaluate.ts';
+import type { OutcomeInput } from './ranking.ts';
 import { fmt } from './status.ts';
 
 export interface SliceInput {
@@ -56,11 +57,11 @@ function psiPValue(draft: FindingDraft, size: { n: number; m: number }): number 
 }
 
 /**
- * The findings of the whole day (slice "all") followed by the feature findings of every
- * slice, before alert hysteresis.
+ * The findings of the whole day (slice "all"; `outcome` as for evaluateDay) followed by the
+ * feature findings of every slice, before alert hysteresis.
  */
-export function evaluateSlices(config: Config, baseline: BaselineProfile, current: DayProfile, slices: readonly SliceInput[]): FindingDraft[] {
-  const out: FindingDraft[] = evaluateDay(config, baseline, current).map((d) => ({ slice: WHOLE_DAY, ...d }));
+export function evaluateSlices(config: Config, baseline: BaselineProfile, current: DayProfile, slices: readonly SliceInput[], outcome?: OutcomeInput): FindingDraft[] {
+  const out: FindingDraft[] = evaluateDay(config, baseline, current, outcome).map((d) => ({ slice: WHOLE_DAY, ...d }));
   const ks: { draft: FindingDraft; p: number }[] = [];
   const psi: { draft: FindingDraft; p: number }[] = [];
   for (const s of slices) {

@@ -1,2 +1,2 @@
 export * from './schema.ts';
-export { loadConfigFile, parseConfig, formatIssues, formatPath, connectionsFromEnv, maskUrl, envSetting, connectionSummary, type Connections } from './load.ts';
+export { loadConfigFile, parseConfig, formatIssues, formatPath, connectionsFromEnv, maskUrl, redactUrls, serviceSecretsFromEnv, envSetting, connectionSummary, type Connections, type ServiceSecrets } from './load.ts';

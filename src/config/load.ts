@@ -152,6 +152,39 @@ export function envSetting(name: string, env: Env = process.env): string | undef
   return v === undefined || v === '' ? undefined : v;
 }
 
+/** Secrets of the service other than connection strings; never printed. */
+export interface ServiceSecrets {
+  /** Bearer token that POST /api/v1/runs requires (http.manualRuns.enabled). */
+  runToken?: string;
+  /** Bearer token sent to Alertmanager (instead of, or besides, user:password in its URL). */
+  alertmanagerToken?: string;
+}
+
+/**
+ * PLUMBLINE_RUN_TOKEN and PLUMBLINE_ALERTMANAGER_TOKEN, each also as *_FILE naming a file that
+ * holds it. A token shorter than 16 characters is refused: it would be guessable.
+ */
+export function serviceSecretsFromEnv(env: Env = process.env): ServiceSecrets {
+  const out: ServiceSecrets = {};
+  const runToken = fromEnvOrFile(env, 'PLUMBLINE_RUN_TOKEN');
+  if (runToken !== undefined) {
+    if (runToken.length < 16) throw new ConfigError('PLUMBLINE_RUN_TOKEN is too short', ['PLUMBLINE_RUN_TOKEN: use at least 16 characters (e.g. openssl rand -hex 32)']);
+    out.runToken = runToken;
+  }
+  const amToken = fromEnvOrFile(env, 'PLUMBLINE_ALERTMANAGER_TOKEN');
+  if (amToken !== undefined) out.alertmanagerToken = amToken;
+  return out;
+}
+
+/**
+ * Every URL inside a free text masked with maskUrl (its password and password parameters),
+ * for error messages that may repeat a URL: driver errors, fetch errors. The one redaction
+ * helper of Plumbline besides maskUrl itself.
+ */
+export function redactUrls(text: string): string {
+  return text.replace(/\b[a-z][a-z0-9+.-]*:\/\/[^\s"'<>]+/gi, (u) => maskUrl(u));
+}
+
 /**
  * One line per connection setting for printing: the URL masked, or the file it is read
  * from (not read out), or "(not set)".

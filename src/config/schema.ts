@@ -128,6 +128,11 @@ export const DEFAULT_THRESHOLDS = {
   row_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
   list_count_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 3 },
   label_positive_ratio: { warnBelow: 0.7, criticalBelow: 0.5, warnAbove: 1.5, criticalAbove: 2 },
+  position_rank_correlation: { warn: 0.1, critical: 0.2 },
+  score_rank_correlation: { warn: 0.1, critical: 0.2 },
+  mean_reciprocal_rank: { warn: 0.03, critical: 0.06 },
+  ndcg: { warn: 0.03, critical: 0.06 },
+  positive_position_psi: { warn: 0.02, critical: 0.05 },
 } as const;
 
 /**
@@ -192,6 +197,21 @@ const ThresholdsSchema = z
     row_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.row_count_ratio),
     list_count_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.list_count_ratio),
     label_positive_ratio: BandThreshold.default(DEFAULT_THRESHOLDS.label_positive_ratio),
+    /** Change of the mean per-list Spearman rho (feature vs position) from the baseline days' mean. */
+    position_rank_correlation: AboveThreshold.default(DEFAULT_THRESHOLDS.position_rank_correlation),
+    /** Change of the mean per-list Spearman rho (feature vs model score) from the baseline days' mean. */
+    score_rank_correlation: AboveThreshold.default(DEFAULT_THRESHOLDS.score_rank_correlation),
+    /** Change of the mean reciprocal rank of the first positive from the baseline days' mean. */
+    mean_reciprocal_rank: AboveThreshold.default(DEFAULT_THRESHOLDS.mean_reciprocal_rank),
+    /** Change of the mean NDCG@k (outcome.ndcgAt) from the baseline days' mean. */
+    ndcg: AboveThreshold.default(DEFAULT_THRESHOLDS.ndcg),
+    /** PSI of positive labels over served-rank buckets (the click curve). */
+    positive_position_psi: AboveThreshold.default(DEFAULT_THRESHOLDS.positive_position_psi),
+    /**
+     * A change of a per-day mean of per-list values (rank correlations, MRR, NDCG) must also
+     * exceed this many standard deviations of its no-change noise (lists and day-to-day spread).
+     */
+    rankingNoiseZ: z.number().positive().default(3),
   })
   .prefault({});
 
@@ -212,6 +232,8 @@ const FeatureThresholdOverrides = z
     category_cardinality: AboveThreshold.optional(),
     rule_violation_ratio: AboveThreshold.optional(),
     flat_list_ratio: AboveThreshold.optional(),
+    position_rank_correlation: AboveThreshold.optional(),
+    score_rank_correlation: AboveThreshold.optional(),
   })
   .optional();
 
@@ -335,6 +357,13 @@ export const ConfigSchema = z
       featuresColumn: identifier.optional(),
       /** `stream`: rows come to Plumbline (exact KS). `pushdown`: PostgreSQL aggregates. */
       engine: z.enum(['stream', 'pushdown']).default('stream'),
+      /**
+       * Pushdown engine: where the within-list association comes from. `sample`: the per-list
+       * correlations of the whole-list sample the engine reads anyway (exact per list; the day's
+       * mean over the sampled lists, whose standard error enters the noise). `sql`: every list,
+       * in SQL with window functions (exact; costs about one sort of rows x features).
+       */
+      pushdownAssociation: z.enum(['sample', 'sql']).default('sample'),
       /** Keep at most about this many rows of a day, as whole lists chosen by a hash of the list id. */
       maxRowsPerDay: positiveInt.max(LIMITS.maxRowsPerDay, `must be at most ${LIMITS.maxRowsPerDay} rows (the stream engine holds the day in memory)`).default(2_000_000),
       /** Server-side statement_timeout of source reads; PostgreSQL takes at most 2147483647 ms. */
@@ -377,6 +406,10 @@ export const ConfigSchema = z
             quality: countOfRuns.default(1),
             within_list: countOfRuns.default(1),
             dataset: countOfRuns.default(1),
+            /** position_rank_correlation, score_rank_correlation: a pipeline break shows at once. */
+            ranking: countOfRuns.default(1),
+            /** mean_reciprocal_rank, ndcg, positive_position_psi: outcomes move with traffic and label noise. */
+            outcome: countOfRuns.default(2),
           })
           .prefault({}),
         /**
@@ -404,6 +437,10 @@ export const ConfigSchema = z
          * most one hour. Failures that are not connection trouble (bad config, a bug) wait 20 times as long.
          */
         retryBaseSeconds: z.number().min(1, 'must be at least 1 second').max(3600, 'must be at most 3600 seconds (an hour)').default(15),
+        /** `serve`: a run still going after this long is aborted, recorded as failed and retried (a hung connection must not block later days). */
+        runTimeoutMinutes: z.number().positive().max(24 * 60).default(120),
+        /** `serve`: on SIGTERM a run in progress gets this long to finish; then its statements are cancelled and it is recorded as interrupted. */
+        shutdownGraceSeconds: z.number().int().min(0).max(3600).default(20),
         readiness: z
           .strictObject({
             /** The day counts as ready once it has this fraction of the baseline's mean daily rows. */
@@ -418,10 +455,34 @@ export const ConfigSchema = z
           .prefault({}),
       })
       .prefault({}),
+    outcome: z
+      .strictObject({
+        /** The k of NDCG@k over labels in served order. */
+        ndcgAt: positiveInt.max(1000).default(10),
+        /**
+         * Labels (clicks, purchases) arrive late: the run for day D evaluates the outcome
+         * checks for D - labelLagDays, re-reading that day and its baseline days' labels from
+         * the source at run time. 0: outcomes of the evaluated day itself, from its profile.
+         */
+        labelLagDays: z.number().int().min(0).max(60).default(0),
+      })
+      .prefault({}),
     http: z
       .strictObject({
         host: z.string().default('127.0.0.1'),
         port: z.number().int().min(0).max(65535).default(9467),
+        /** Serve the status page at / (false: only metrics, health and the API). */
+        statusPage: z.boolean().default(true),
+        /**
+         * Host header values (name or name:port) the server answers; others get 421, so a
+         * DNS-rebinding page cannot reach it. Default: the bind address, localhost and
+         * 127.0.0.1, each with the port.
+         */
+        allowedHosts: z.array(z.string().min(1).regex(/^[A-Za-z0-9.\-\[\]:]+$/, 'must be a host name or address, optionally with :port')).min(1).optional(),
+        /** Every replica reloads the latest stored run at least this often (besides the store's notifications). */
+        refreshSeconds: positiveInt.max(86_400).default(60),
+        /** POST /api/v1/runs: off unless enabled; then it needs the bearer token PLUMBLINE_RUN_TOKEN (or PLUMBLINE_RUN_TOKEN_FILE). */
+        manualRuns: z.strictObject({ enabled: z.boolean().default(false) }).prefault({}),
       })
       .prefault({}),
     store: z

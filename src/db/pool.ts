@@ -17,6 +17,12 @@ export interface PoolOptions {
   /** Closes sessions left idle inside a transaction (a crashed client). */
   idleInTransactionTimeoutMs?: number;
   connectionTimeoutMs?: number;
+  /**
+   * Client-side limit on waiting for one query's answer (pg `query_timeout`): a half-open
+   * connection (the server vanished without a FIN) otherwise waits forever. Keep it above
+   * statementTimeoutMs, which cancels on the server; a client that timed out is discarded.
+   */
+  queryTimeoutMs?: number;
   max?: number;
   /** Called for errors of idle clients (server restart); without a listener they crash the process. */
   onError?: (err: Error) => void;
@@ -31,6 +37,10 @@ export function createPool(options: PoolOptions): Pool {
     connectionTimeoutMillis: options.connectionTimeoutMs ?? 10_000,
     max: options.max ?? 4,
     idleTimeoutMillis: 30_000,
+    // TCP keepalive probes notice a peer that is gone while a connection waits.
+    keepAlive: true,
+    keepAliveInitialDelayMillis: 10_000,
+    ...(options.queryTimeoutMs !== undefined ? { query_timeout: options.queryTimeoutMs } : {}),
   });
   pool.on('error', (err) => options.onError?.(err));
   return pool;
@@ -40,8 +50,16 @@ export function createPool(options: PoolOptions): Pool {
  * Runs `fn` in one `REPEATABLE READ READ ONLY` transaction: every query sees the same
  * snapshot of the source, and nothing can be written by mistake.
  */
-export async function withReadOnlyTransaction<T>(pool: Pool, fn: (client: PoolClient) => Promise<T>): Promise<T> {
-  return withTransactionMode(pool, 'BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY', fn);
+export async function withReadOnlyTransaction<T>(pool: Pool, fn: (client: PoolClient) => Promise<T>, options: TransactionOptions = {}): Promise<T> {
+  return withTransactionMode(pool, 'BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY', fn, options);
+}
+
+export interface TransactionOptions {
+  /**
+   * Aborting it cancels the statement in flight on the server (a cancel request for this
+   * session's backend), so a long read stops at once instead of at statement_timeout.
+   */
+  signal?: AbortSignal;
 }
 
 /** Runs `fn` in one read-write transaction; rolls back on any error. */
@@ -49,8 +67,11 @@ export async function withTransaction<T>(pool: Pool, fn: (client: PoolClient) =>
   return withTransactionMode(pool, 'BEGIN', fn);
 }
 
-async function withTransactionMode<T>(pool: Pool, begin: string, fn: (client: PoolClient) => Promise<T>): Promise<T> {
+async function withTransactionMode<T>(pool: Pool, begin: string, fn: (client: PoolClient) => Promise<T>, options: TransactionOptions = {}): Promise<T> {
+  options.signal?.throwIfAborted();
   const client = await pool.connect();
+  const onAbort = (): void => void cancelBackend(pool, client);
+  options.signal?.addEventListener('abort', onAbort, { once: true });
   let broken: Error | undefined;
   // A checked-out client has no pool listener: without this one, a connection lost in the
   // middle (server restart, terminated backend) is an unhandled 'error' event that ends
@@ -73,8 +94,31 @@ async function withTransactionMode<T>(pool: Pool, begin: string, fn: (client: Po
     }
     throw err;
   } finally {
+    options.signal?.removeEventListener('abort', onAbort);
     client.removeListener('error', onLost);
-    client.release(broken);
+    // After a cancel the session is fine, but drop it anyway: it may have been mid-COPY.
+    client.release(broken ?? options.signal?.aborted === true);
+  }
+}
+
+/**
+ * Cancels the statement `client` is running, from a new short-lived connection with the
+ * pool's settings (pg_cancel_backend of its backend pid). Never throws: a failed cancel
+ * leaves the statement to statement_timeout.
+ */
+export async function cancelBackend(pool: Pool, client: PoolClient): Promise<boolean> {
+  const pid = (client as unknown as { processID?: number | null }).processID;
+  if (typeof pid !== 'number') return false;
+  const canceller = new pg.Client({ ...pool.options, application_name: 'plumbline-cancel', statement_timeout: 5000, connectionTimeoutMillis: 5000 });
+  canceller.on('error', () => undefined);
+  try {
+    await canceller.connect();
+    const res = await canceller.query<{ ok: boolean }>('SELECT pg_cancel_backend($1) AS ok', [pid]);
+    return res.rows[0]?.ok === true;
+  } catch {
+    return false;
+  } finally {
+    await canceller.end().catch(() => undefined);
   }
 }
 

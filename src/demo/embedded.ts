@@ -5,7 +5,7 @@
  *
  * PGlite is one session; the socket server multiplexes several clients onto it through a
  * queue (one transaction at a time). Plumbline's pools need a few connections at once
- * (source, store, leader lock), hence maxConnections > 1. Startup parameters such as
+ * (source, store, leader lock, the notification listener), hence maxConnections > 1. Startup parameters such as
  * statement_timeout are not applied by the multiplexer; the demo does not rely on them.
  */
 import { PGlite } from '@electric-sql/pglite';
@@ -18,7 +18,7 @@ export interface EmbeddedPostgres {
 
 export async function startEmbeddedPostgres(options: { dataDir?: string; maxConnections?: number } = {}): Promise<EmbeddedPostgres> {
   const db = options.dataDir === undefined ? await PGlite.create() : await PGlite.create(options.dataDir);
-  const server = new PGLiteSocketServer({ db, host: '127.0.0.1', port: 0, maxConnections: options.maxConnections ?? 8 });
+  const server = new PGLiteSocketServer({ db, host: '127.0.0.1', port: 0, maxConnections: options.maxConnections ?? 16 });
   try {
     await server.start();
   } catch (err) {

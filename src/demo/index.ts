@@ -15,7 +15,6 @@ import { createLogger } from '../log.ts';
 import type { Report } from '../report/index.ts';
 import { runDay } from '../run/index.ts';
 import { serve } from '../scheduler/index.ts';
-import { createStatusPage } from '../statuspage/index.ts';
 import { migrate } from '../store/index.ts';
 import { DEMO_SCENARIO, scenarioDates } from '../../demo-data/scenario.ts';
 import { loadScenario } from '../../demo-data/load.ts';
@@ -91,7 +90,6 @@ export async function runDemo(options: DemoOptions): Promise<number> {
       config,
       log: quiet,
       openRuntime: (c, l) => options.openRuntime(c, l, env),
-      page: (srv) => createStatusPage({ latestReport: () => srv.store.latestReport(), reportFor: (d) => srv.store.reportFor(d), history: (q) => srv.store.history(q), storedDates: (from, to) => srv.store.storedDates(from, to) }),
       runSchedule: false,
       ...(options.stopSignal !== undefined ? { stopSignal: options.stopSignal } : {}),
       onListening: (url) => {
@@ -108,3 +106,4 @@ export async function runDemo(options: DemoOptions): Promise<number> {
   }
 }
 
+export { startEmbeddedPostgres, type EmbeddedPostgres } from './embedded.ts';

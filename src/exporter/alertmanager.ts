@@ -13,7 +13,12 @@
  *
  * Never throws: network errors, timeouts and non-2xx answers come back in the result, so a
  * push can never fail a run.
+ *
+ * Credentials: `user:password@` in the URL is sent as HTTP basic auth (fetch refuses URLs
+ * with credentials), a bearer token (PLUMBLINE_ALERTMANAGER_TOKEN) as `Authorization: Bearer`.
+ * Neither ever appears in an error message: URLs are shown by origin, other text is redacted.
  */
+import { redactUrls } from '../config/index.ts';
 import { sliceOf, type Finding, type Report } from '../report/index.ts';
 import { alertNameFor, DEFAULT_RUNBOOK_URL, runbookUrl, severityFor } from './alerts.ts';
 
@@ -56,6 +61,27 @@ export interface PushOptions {
   generatorUrl?: string;
   /** The clock, for tests. */
   now?: () => Date;
+  /** Sent as `Authorization: Bearer <token>` (wins over user:password in the URL). */
+  bearerToken?: string;
+}
+
+/**
+ * The request target without userinfo, and the Authorization header that carries it instead
+ * (basic auth from `user:password@`, or the bearer token).
+ */
+export function alertmanagerTarget(baseUrl: string, bearerToken?: string): { url: URL; headers: Record<string, string> } {
+  const url = new URL(`${baseUrl.replace(/\/+$/, '')}/api/v2/alerts`);
+  if (url.protocol !== 'http:' && url.protocol !== 'https:') throw new Error(`unsupported scheme ${url.protocol}`);
+  const headers: Record<string, string> = {};
+  if (url.username !== '' || url.password !== '') {
+    const user = decodeURIComponent(url.username);
+    const password = decodeURIComponent(url.password);
+    headers['authorization'] = `Basic ${Buffer.from(`${user}:${password}`, 'utf8').toString('base64')}`;
+    url.username = '';
+    url.password = '';
+  }
+  if (bearerToken !== undefined) headers['authorization'] = `Bearer ${bearerToken}`;
+  return { url, headers };
 }
 
 export interface PushResult {
@@ -214,30 +240,30 @@ export async function pushAlerts(baseUrl: string, report: Report, opts: PushOpti
     return [...built.active, ...built.previous.filter((l) => !seen.has(keyOf(l)))];
   };
   let url: URL;
+  let auth: Record<string, string>;
   try {
-    url = new URL(`${baseUrl.replace(/\/+$/, '')}/api/v2/alerts`);
-    if (url.protocol !== 'http:' && url.protocol !== 'https:') throw new Error(`unsupported scheme ${url.protocol}`);
+    ({ url, headers: auth } = alertmanagerTarget(baseUrl, opts.bearerToken));
   } catch (err) {
-    return { ok: false, error: `bad Alertmanager URL: ${(err as Error).message}`, firing: 0, resolved: 0, active: stillHeld() };
+    return { ok: false, error: `bad Alertmanager URL: ${redactUrls((err as Error).message)}`, firing: 0, resolved: 0, active: stillHeld() };
   }
   const firing = built.alerts.length - built.resolved;
   if (built.alerts.length === 0) return { ok: true, firing: 0, resolved: 0, active: [] };
   try {
     const res = await fetch(url, {
       method: 'POST',
-      headers: { 'content-type': 'application/json' },
+      headers: { 'content-type': 'application/json', ...auth },
       body: JSON.stringify(built.alerts),
       signal: AbortSignal.timeout(opts.timeoutMs ?? 10_000),
     });
     const text = await res.text().catch(() => '');
     if (!res.ok) {
-      const detail = text.replace(/\s+/g, ' ').trim().slice(0, 200);
+      const detail = redactUrls(text.replace(/\s+/g, ' ').trim().slice(0, 200));
       return { ok: false, status: res.status, error: `Alertmanager answered ${res.status}${detail ? `: ${detail}` : ''}`, firing: 0, resolved: 0, active: stillHeld() };
     }
     return { ok: true, status: res.status, firing, resolved: built.resolved, active: built.active };
   } catch (err) {
     const e = err as Error & { cause?: { code?: string } };
-    const why = e.name === 'TimeoutError' ? `no answer within ${opts.timeoutMs ?? 10_000} ms` : (e.cause?.code ?? e.message);
+    const why = e.name === 'TimeoutError' ? `no answer within ${opts.timeoutMs ?? 10_000} ms` : redactUrls(e.cause?.code ?? e.message);
     return { ok: false, error: `cannot reach Alertmanager at ${url.origin}: ${why}`, firing: 0, resolved: 0, active: stillHeld() };
   }
 }

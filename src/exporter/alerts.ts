@@ -12,6 +12,8 @@ export const FINDING_ALERT_OF_KIND: Readonly<Record<CheckKind, string>> = {
   quality: 'PlumblineFeatureDataBroken',
   within_list: 'PlumblineWithinListRuleBroken',
   dataset: 'PlumblineDatasetBroken',
+  ranking: 'PlumblineRankingAssociationChanged',
+  outcome: 'PlumblineRankingOutcomeChanged',
 };
 
 export const SNAPSHOT_MISSING_ALERT = 'PlumblineSnapshotMissing';

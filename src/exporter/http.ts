@@ -8,11 +8,16 @@
  *   GET  /readyz                      200 or 503 with `{ ready, reasons }` (readiness)
  *   GET  /api/v1/reports/latest       the newest stored Report as JSON, 404 when none
  *   GET  /api/v1/reports/YYYY-MM-DD   that date's Report, 404 when none, 400 for a bad date
- *   POST /api/v1/runs?date=YYYY-MM-DD manual run (only when `deps.trigger` is set): 202 accepted, 409 busy
+ *   POST /api/v1/runs?date=YYYY-MM-DD manual run (only when `deps.trigger` is set): 202 accepted,
+ *                                     401 without the bearer token, 400 date refused, 409 busy or
+ *                                     not the leader, 503 store or source not ready
+ * Requests that act (POST) must name an allowed Host (421 otherwise), so a page that rebinds
+ * its own DNS name to this address cannot start runs from a browser.
  *   GET  anything else                `deps.page` when given, else 404
  * HEAD is answered like GET without a body. Errors are JSON `{ "error": "..." }` and never
  * repeat what the request said.
  */
+import { createHash, timingSafeEqual } from 'node:crypto';
 import { createServer, type IncomingMessage, type Server, type ServerResponse } from 'node:http';
 import type { AddressInfo } from 'node:net';
 import { ConfigError } from '../errors.ts';
@@ -36,7 +41,9 @@ export interface HttpDeps {
   /** Serves every other GET (the status page). Returns null for "not found". */
   page?: (path: string, query: URLSearchParams) => Promise<PageResult | null>;
   /** Starts a run for `date` (null: the date the schedule would pick). Absent: POST /api/v1/runs is 404. */
-  trigger?: (date: string | null) => Promise<{ accepted: boolean; message: string }>;
+  trigger?: (date: string | null) => Promise<{ accepted: boolean; message: string; status?: number }>;
+  /** Bearer token POST /api/v1/runs requires (set whenever `trigger` is). */
+  runToken?: string;
   /** Told about handler failures (the client only sees a 500 "internal error"). */
   onError?: (err: unknown, route: string) => void;
 }
@@ -44,6 +51,11 @@ export interface HttpDeps {
 export interface HttpServerOptions {
   host: string;
   port: number;
+  /**
+   * Host header values accepted on requests that act (`name` or `name:port`; a name without a
+   * port accepts any port). Default: the bind address, localhost and 127.0.0.1 with the port.
+   */
+  allowedHosts?: readonly string[];
 }
 
 export interface RunningHttpServer {
@@ -132,8 +144,35 @@ function crossOriginPost(req: IncomingMessage): boolean {
   }
 }
 
-async function route(req: IncomingMessage, res: ServerResponse, deps: HttpDeps, path: string, query: URLSearchParams): Promise<void> {
+/** The Host header checked against the allowed names (case-insensitive; a bare name matches any port). */
+export function hostAllowed(host: string | undefined, allowed: readonly string[]): boolean {
+  if (host === undefined || host === '') return false;
+  const h = host.toLowerCase();
+  const name = h.startsWith('[') ? h.slice(0, h.indexOf(']') + 1) : h.replace(/:\d+$/, '');
+  return allowed.some((a) => {
+    const x = a.toLowerCase();
+    return x === h || x === name;
+  });
+}
+
+/**
+ * Constant-time comparison of a presented bearer token with the expected one: both are
+ * hashed first (SHA-256), so the comparison runs over equal lengths and leaks neither
+ * the token nor its length.
+ */
+export function tokenMatches(authorization: string | undefined, expected: string): boolean {
+  const m = /^Bearer\s+(\S+)\s*$/i.exec(authorization ?? '');
+  const presented = m?.[1] ?? '';
+  const a = createHash('sha256').update(presented, 'utf8').digest();
+  const b = createHash('sha256').update(expected, 'utf8').digest();
+  return timingSafeEqual(a, b) && presented !== '';
+}
+
+async function route(req: IncomingMessage, res: ServerResponse, deps: HttpDeps, path: string, query: URLSearchParams, allowedHosts: readonly string[]): Promise<void> {
   const method = req.method ?? 'GET';
+  if (!isRead(method) && !hostAllowed(req.headers.host, allowedHosts)) {
+    return sendJson(res, 421, { error: 'this server does not answer that host name (http.allowedHosts)' });
+  }
 
   if (path === '/metrics') {
     if (!isRead(method)) return methodNotAllowed(res, 'GET, HEAD');
@@ -183,10 +222,13 @@ async function route(req: IncomingMessage, res: ServerResponse, deps: HttpDeps, 
   if (path === '/api/v1/runs' && deps.trigger !== undefined) {
     if (method !== 'POST') return methodNotAllowed(res, 'POST');
     if (crossOriginPost(req)) return sendJson(res, 403, { error: 'cross-origin requests may not start runs' });
+    if (deps.runToken === undefined || !tokenMatches(req.headers.authorization, deps.runToken)) {
+      return sendJson(res, 401, { error: 'a bearer token is required (Authorization: Bearer <PLUMBLINE_RUN_TOKEN>)' }, { 'WWW-Authenticate': 'Bearer realm="plumbline"' });
+    }
     const raw = query.get('date');
     if (raw !== null && !isSnapshotDate(raw)) return sendJson(res, 400, { error: 'date must be a calendar date written YYYY-MM-DD' });
     const result = await deps.trigger(raw);
-    return sendJson(res, result.accepted ? 202 : 409, { accepted: result.accepted, message: result.message });
+    return sendJson(res, result.status ?? (result.accepted ? 202 : 409), { accepted: result.accepted, message: result.message });
   }
 
   if (deps.page !== undefined && isRead(method)) {
@@ -197,7 +239,7 @@ async function route(req: IncomingMessage, res: ServerResponse, deps: HttpDeps, 
   return notFound(res);
 }
 
-function handler(deps: HttpDeps) {
+function handler(deps: HttpDeps, allowedHosts: () => readonly string[]) {
   return (req: IncomingMessage, res: ServerResponse): void => {
     // Bodies are never read; draining keeps the connection usable.
     req.resume();
@@ -206,7 +248,7 @@ function handler(deps: HttpDeps) {
     const q = target.indexOf('?');
     const path = q < 0 ? target : target.slice(0, q);
     const query = new URLSearchParams(q < 0 ? '' : target.slice(q + 1));
-    route(req, res, deps, path, query).catch((err: unknown) => {
+    route(req, res, deps, path, query, allowedHosts()).catch((err: unknown) => {
       deps.onError?.(err, path);
       if (!res.headersSent) sendJson(res, 500, { error: 'internal error' });
       else res.destroy();
@@ -234,13 +276,16 @@ function listen(server: Server, opts: HttpServerOptions): Promise<void> {
 
 /** Starts the server on `opts.host:opts.port` (port 0 picks a free one) and resolves once it listens. */
 export async function startHttpServer(deps: HttpDeps, opts: HttpServerOptions): Promise<RunningHttpServer> {
-  const server = createServer(handler(deps));
+  let allowed: readonly string[] = opts.allowedHosts ?? [];
+  const server = createServer(handler(deps, () => allowed));
   // Slow or stuck clients must not hold sockets for long; a scrape takes milliseconds.
   server.headersTimeout = 10_000;
   server.requestTimeout = 30_000;
   await listen(server, opts);
   const address = server.address() as AddressInfo;
   const host = address.address.includes(':') ? `[${address.address}]` : address.address;
+  // The default needs the real port (port 0 picks one).
+  if (opts.allowedHosts === undefined) allowed = [...new Set([`${host}:${address.port}`, `${opts.host}:${address.port}`, `localhost:${address.port}`, `127.0.0.1:${address.port}`])];
   let closing: Promise<void> | null = null;
   return {
     url: `http://${host}:${address.port}`,

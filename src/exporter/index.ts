@@ -4,8 +4,8 @@
  * direct Alertmanager push, and the alert catalogue the shipped rules follow.
  */
 export { PlumblineMetrics, snapshotDateSeconds, type MonitorHealth, type RunOutcome, type ExpositionFormat, type PlumblineMetricsOptions } from './metrics.ts';
-export { startHttpServer, preferredFormat, isSnapshotDate, type HttpDeps, type HttpServerOptions, type RunningHttpServer, type PageResult } from './http.ts';
-export { pushAlerts, buildAlerts, alertingLabels, type AlertLabels, type PostableAlert, type PushOptions, type PushResult } from './alertmanager.ts';
+export { startHttpServer, preferredFormat, isSnapshotDate, hostAllowed, tokenMatches, type HttpDeps, type HttpServerOptions, type RunningHttpServer, type PageResult } from './http.ts';
+export { pushAlerts, buildAlerts, alertingLabels, alertmanagerTarget, type AlertLabels, type PostableAlert, type PushOptions, type PushResult } from './alertmanager.ts';
 export {
   alertNameFor,
   severityFor,

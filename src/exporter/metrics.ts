@@ -18,7 +18,9 @@ import type { RunStats } from '../store/index.ts';
  * The monitor's own state: the store's run statistics (used to refill the health metrics at
  * start; the run counters continue from its totals) plus what this process sees now.
  */
-export type MonitorHealth = Omit<RunStats, 'lastError'> & {
+export type MonitorHealth = Omit<RunStats, 'lastError' | 'interrupted'> & {
+  /** Runs stopped by a shutdown. */
+  interrupted?: number;
   sourceUp: boolean;
   storeUp: boolean;
   leader: boolean;
@@ -26,6 +28,11 @@ export type MonitorHealth = Omit<RunStats, 'lastError'> & {
 
 export interface RunOutcome {
   ok: boolean;
+  /**
+   * Stopped on purpose (shutdown): counted in plumbline_run_interruptions_total only; the
+   * last-run gauges and the run and failure counters keep the newest verdict.
+   */
+  interrupted?: boolean;
   /** ISO timestamps. */
   startedAt: string;
   finishedAt: string;
@@ -104,6 +111,10 @@ export class PlumblineMetrics {
   readonly #lastRunSuccess: Gauge;
   readonly #runs: Counter;
   readonly #failures: Counter;
+  readonly #interruptions: Counter;
+  readonly #unhandled: Counter;
+  #unhandledCount = 0;
+  #interruptionsCount = 0;
   /** What the two counters hold (prom-client reads them back only asynchronously). */
   #runsCount = 0;
   #failuresCount = 0;
@@ -167,6 +178,8 @@ export class PlumblineMetrics {
     this.#lastRunSuccess = gauge('plumbline_last_run_success', 'Whether the newest run succeeded (1) or failed (0).');
     this.#runs = new Counter({ name: 'plumbline_runs_total', help: 'Runs completed, success or failure, over the store\'s history.', registers });
     this.#failures = new Counter({ name: 'plumbline_run_failures_total', help: 'Runs that failed, over the store\'s history.', registers });
+    this.#interruptions = new Counter({ name: 'plumbline_run_interruptions_total', help: 'Runs stopped by a shutdown before they finished (not failures), over the store\'s history.', registers });
+    this.#unhandled = new Counter({ name: 'plumbline_unhandled_rejections_total', help: 'Promise rejections nothing handled in this process (a bug; each is logged).', registers });
     this.#sourceUp = gauge('plumbline_source_up', 'Whether the source database answered the latest probe (1) or not (0).');
     this.#storeUp = gauge('plumbline_store_up', 'Whether Plumbline\'s store answered the latest probe (1) or not (0).');
     this.#leader = gauge('plumbline_leader', 'Whether this replica holds the leader lock and runs the schedule (1) or only serves results (0).');
@@ -306,6 +319,11 @@ export class PlumblineMetrics {
 
   /** Counts a finished run (success or failure) and updates the last-run gauges. */
   recordRun(outcome: RunOutcome): void {
+    if (outcome.interrupted === true) {
+      this.#interruptions.inc();
+      this.#interruptionsCount += 1;
+      return;
+    }
     this.#runs.inc();
     this.#runsCount += 1;
     if (!outcome.ok) {
@@ -342,9 +360,22 @@ export class PlumblineMetrics {
       this.#failures.inc(h.failures - this.#failuresCount);
       this.#failuresCount = h.failures;
     }
+    const interrupted = h.interrupted ?? 0;
+    if (Number.isFinite(interrupted) && interrupted > this.#interruptionsCount) {
+      this.#interruptions.inc(interrupted - this.#interruptionsCount);
+      this.#interruptionsCount = interrupted;
+    }
     this.setSourceUp(h.sourceUp);
     this.setStoreUp(h.storeUp);
     this.setLeader(h.leader);
+  }
+
+  /** Raises the unhandled-rejection counter to the process's count. */
+  setUnhandledRejections(count: number): void {
+    if (Number.isFinite(count) && count > this.#unhandledCount) {
+      this.#unhandled.inc(count - this.#unhandledCount);
+      this.#unhandledCount = count;
+    }
   }
 
   setSourceUp(up: boolean): void {

@@ -7,7 +7,7 @@ import type { Config } from '../config/index.ts';
 import { binEdgesFromSorted, boundCategories, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import { windowVariation } from './variation.ts';
-import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
+import type { AssociationCounts, RankingDay, BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
 
 /**
  * k evenly spaced order statistics of a sorted array (the values at ranks (i + 0.5) n / k):
@@ -210,7 +210,17 @@ export function mergeBaseline(days: readonly DayProfile[], config: Config, optio
     features,
     sampleSize,
     createdAt: options.createdAt,
+    rankingDays: days.map(rankingDay),
     variation: windowVariation(days, config, poolOf),
   };
+}
+
+/** A day's ranking aggregates as the baseline keeps them: per day, for the spread over days. */
+export function rankingDay(d: DayProfile): RankingDay {
+  const association: Record<string, AssociationCounts> = {};
+  for (const [name, f] of Object.entries(d.features)) {
+    if (f.kind !== 'categorical' && f.association !== undefined && f.association !== null) association[name] = f.association;
+  }
+  return { date: d.date, outcome: d.outcome ?? null, association };
 }
 

@@ -18,6 +18,7 @@ import {
   type QualityCounts,
   type SplitSum,
 } from '../stats/index.ts';
+import { featureAssociation, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
 import { NULL_POSITION, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
 
 /** Lists longer than this share the last list-size bin. */
@@ -27,6 +28,8 @@ export const MAX_LIST_SIZE_BIN = 100;
 export interface ListGrouping {
   start: Int32Array;
   order: Int32Array;
+  /** Served order and score for the within-list association (set by buildDayProfile). */
+  ranking?: { served: ServedOrder; scoreFeature: string | null };
 }
 
 /** Counting sort of row indexes by list index: O(rows + lists). Rows without a list are left out. */
@@ -173,7 +176,7 @@ export function numericProfile(
     withinList = { listsJudged, flatLists, ruleViolations };
   }
 
-  return {
+  const profile: NumericProfile = {
     kind: feature.kind === 'binary' ? 'binary' : 'numeric',
     quality,
     binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
@@ -182,6 +185,10 @@ export function numericProfile(
     mean: k > 0 ? meanOfSplitSum(sum, k) : null,
     withinList,
   };
+  if (feature.scope === 'item' && g.ranking !== undefined) {
+    profile.association = featureAssociation(values, g.ranking.served, feature.name !== g.ranking.scoreFeature);
+  }
+  return profile;
 }
 
 /**
@@ -273,6 +280,11 @@ export function releaseColumn(cols: DayColumns, fi: number): void {
  */
 export async function buildDayProfile(cols: DayColumns, config: Config, bins: Record<string, BinSpec> | null, profiler: NumericProfiler = profileOnThisThread): Promise<DayProfile> {
   const g = groupByList(cols.listOf, cols.lists);
+  // Served order (and the score) once per day, before the profiler releases the score column.
+  const scoreIndex = scoreFeatureIndex(config);
+  const served = servedOrder(cols.position, g, cols.lists, scoreIndex >= 0 ? cols.numeric[scoreIndex] ?? null : null);
+  g.ranking = { served, scoreFeature: scoreIndex >= 0 ? config.features[scoreIndex]!.name : null };
+  const outcome = cols.label !== null ? outcomeCounts(cols.label, served, config.outcome.ndcgAt) : null;
   const features: Record<string, FeatureProfile> = {};
   const numeric = config.features.map((f, fi) => (f.kind === 'categorical' ? -1 : fi)).filter((fi) => fi >= 0);
   const numericProfiles = profiler(cols, g, numeric, config, bins);
@@ -294,5 +306,13 @@ export async function buildDayProfile(cols: DayColumns, config: Config, bins: Re
     totalLists: cols.sampled && cols.rows > 0 ? Math.round((cols.lists * cols.totalRows) / cols.rows) : cols.lists,
     sampled: cols.sampled,
     features: ordered,
+    outcome,
   };
+}
+
+/** Index of the feature that reads the model score column (source.columns.score), or -1. */
+export function scoreFeatureIndex(config: Config): number {
+  const score = config.source.columns.score;
+  if (score === undefined) return -1;
+  return config.features.findIndex((f) => f.kind !== 'categorical' && f.key === undefined && (f.column ?? f.name) === score);
 }

@@ -32,6 +32,8 @@ export interface NumericProfile {
    * (BaselineProfile.fineBins). With it, KS D comes from the binned ECDFs, with an error bound.
    */
   fineBinCounts?: number[];
+  /** Within-list association with the served order and the score (item-level numeric features). */
+  association?: AssociationCounts | null;
   /**
    * Pushdown engine only: exact counts of the day's finite values beyond the baseline's
    * extreme-value bounds (PushdownSpecs.extremeBounds), with the day's exact extremes.
@@ -110,6 +112,8 @@ export interface DayProfile {
   totalLists: number;
   sampled: boolean;
   features: Record<string, FeatureProfile>;
+  /** Outcome from labels in served order, when a label column is configured. */
+  outcome?: OutcomeCounts | null;
   /** The day's slices (src/profile/slices.ts), in memory only: each is stored as a day profile of its own. */
   slices?: SliceProfile[];
   /** As stored: the names of the slices profiled with this day. */
@@ -140,10 +144,52 @@ export interface BaselineProfile {
   features: Record<string, FeatureProfile>;
   sampleSize: number;
   createdAt: string;
+  /** Per baseline day: outcome and within-list association aggregates (for the day-to-day spread). */
+  rankingDays?: RankingDay[];
   /** Day-to-day variation per feature; absent on baselines stored before it existed. */
   variation?: Record<string, FeatureVariation>;
   /** Names of the slices seen on the window's days (each slice's baseline is stored apart). */
   slices?: string[];
+}
+
+/**
+ * Per-list Spearman correlations of one feature over a day's lists, as mergeable sums: lists
+ * counted (with at least 3 complete pairs and both sides varying), sum and sum of squares
+ * of rho, and lists with rho above and below 0.
+ */
+export interface RankCorrelationSums {
+  count: number;
+  sum: number;
+  sumSq: number;
+  positive: number;
+  negative: number;
+}
+
+/** Within-list association of an item-level numeric feature with the served order and the model score. */
+export interface AssociationCounts {
+  /** Against the position (1 = top): a feature the ranker rewards has a negative rho here. */
+  position: RankCorrelationSums;
+  /** Against the model score (source.columns.score); null without one, and for the score itself. */
+  score: RankCorrelationSums | null;
+}
+
+/** Outcome of the served order from labels, over the lists with at least one positive label. */
+export interface OutcomeCounts {
+  /** The k of NDCG@k. */
+  k: number;
+  /** Lists with a positive label and a served position (those MRR and NDCG are over). */
+  lists: number;
+  reciprocalRank: { count: number; sum: number; sumSq: number };
+  ndcg: { count: number; sum: number; sumSq: number };
+  /** Positive labels per served-rank bucket (stats POSITION_BUCKET_LABELS): the click curve. */
+  positivesByBucket: number[];
+}
+
+/** One baseline day's ranking aggregates, kept apart so that checks see the spread over days. */
+export interface RankingDay {
+  date: string;
+  outcome: OutcomeCounts | null;
+  association: Record<string, AssociationCounts>;
 }
 
 /** A categorical column: codes into a dictionary of the day's values. */

@@ -35,6 +35,8 @@ export const FEATURE_CHECKS = [
   'category_cardinality',
   'rule_violation_ratio',
   'flat_list_ratio',
+  'position_rank_correlation',
+  'score_rank_correlation',
 ] as const;
 export type FeatureCheck = (typeof FEATURE_CHECKS)[number];
 
@@ -52,13 +54,16 @@ export const DATASET_CHECKS = [
   'label_positive_ratio',
   'no_positive_list_ratio',
   'null_label_ratio',
+  'mean_reciprocal_rank',
+  'ndcg',
+  'positive_position_psi',
 ] as const;
 export type DatasetCheck = (typeof DATASET_CHECKS)[number];
 
 export type CheckName = FeatureCheck | DatasetCheck;
 
 /** Which alerting delay (config `alerting.consecutiveRuns`) a check uses. */
-export type CheckKind = 'drift' | 'quality' | 'within_list' | 'dataset';
+export type CheckKind = 'drift' | 'quality' | 'within_list' | 'dataset' | 'ranking' | 'outcome';
 export const CHECK_KIND: Record<CheckName, CheckKind> = {
   psi: 'drift',
   ks: 'drift',
@@ -85,6 +90,11 @@ export const CHECK_KIND: Record<CheckName, CheckKind> = {
   singleton_list_ratio: 'dataset',
   label_positive_ratio: 'dataset',
   no_positive_list_ratio: 'dataset',
+  position_rank_correlation: 'ranking',
+  score_rank_correlation: 'ranking',
+  mean_reciprocal_rank: 'outcome',
+  ndcg: 'outcome',
+  positive_position_psi: 'outcome',
 };
 
 /** Thresholds as they were applied to a finding. */

@@ -7,7 +7,7 @@
  * failure before that leaves every stored result as it was and records only a failed run.
  */
 import { createHash } from 'node:crypto';
-import { applyAlertState, baselineExtremeBounds, evaluateSlices, snapshotMissingFinding, type FindingDraft } from '../checks/index.ts';
+import { applyAlertState, baselineExtremeBounds, evaluateSlices, snapshotMissingFinding, type FindingDraft, type OutcomeInput } from '../checks/index.ts';
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, DataError, SourceError } from '../errors.ts';
@@ -41,13 +41,16 @@ import {
   planSource,
   readDay,
   readDayAggregates,
+  readRankingAggregates,
   sliceFilter,
   tallySegmentsSql,
+  withRankingAggregates,
   type DayAggregates,
   type PushdownSpecs,
   type SourcePlan,
 } from '../source/index.ts';
-import { baselineDates } from './dates.ts';
+import { wasInterrupted } from './abort.ts';
+import { addDays, baselineDates } from './dates.ts';
 
 /** What a run needs of the store (src/store implements it). */
 export interface RunStore {
@@ -64,7 +67,7 @@ export interface RunStore {
       moreBaselines?: readonly BaselineProfile[];
     },
   ): Promise<void>;
-  recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string }): Promise<void>;
+  recordFailure(f: { runDate: string; startedAt: string; finishedAt: string; error: string; configFingerprint: string; outcome?: 'failure' | 'interrupted' }): Promise<void>;
   previousFindings(beforeDate: string): Promise<{ runDate: string; findings: Finding[] } | null>;
   loadBaseline(fingerprint: string): Promise<BaselineProfile | null>;
   loadDayProfiles(fingerprint: string, dates: readonly string[]): Promise<Map<string, DayProfile>>;
@@ -76,7 +79,10 @@ export interface RunDeps {
   store: RunStore;
   log: Logger;
   now?: () => Date;
-  /** Aborts between days of a baseline build and before the final save. */
+  /**
+   * Aborts the run: checked between phases, and it cancels the source statement in flight.
+   * With a RunAbortError of kind `interrupted` as reason the run is recorded as interrupted.
+   */
   signal?: AbortSignal;
 }
 
@@ -140,8 +146,10 @@ export function daySampleCap(config: Config): number {
  */
 async function readSource<T>(deps: RunDeps, what: string, fn: (client: PoolClient) => Promise<T>): Promise<T> {
   try {
-    return await withReadOnlyTransaction(deps.source, fn);
+    return await withReadOnlyTransaction(deps.source, fn, deps.signal !== undefined ? { signal: deps.signal } : {});
   } catch (err) {
+    // A cancelled statement of an aborted run: the abort's reason says what happened.
+    if (deps.signal?.aborted === true) throw deps.signal.reason instanceof Error ? deps.signal.reason : new Error('run aborted');
     if (err instanceof ConfigError || err instanceof DataError || err instanceof SourceError) throw err;
     const code = sqlState(err);
     throw new SourceError(`${what} failed: ${(err as Error).message}${code !== undefined ? ` (SQLSTATE ${code})` : ''}`, { cause: err });
@@ -194,8 +202,9 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
     const b = sliceSpecs.get(name);
     return { bins: b?.bins ?? null, fineBins: b?.fineBins ?? null, extremeBounds: b === undefined ? null : extremeBoundsOf(config, b) };
   };
-  const { agg, cols, defs, sliceAggs } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
+  const { agg, ranking, cols, defs, sliceAggs } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
     const agg = await readDayAggregates(client, config, plan, date, specs);
+    const ranking = (await readRankingAggregates(client, config, plan, [date], { association: config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
     let defs: SliceDef[] = [];
     const sliceAggs: DayAggregates[] = [];
     if (hasSlices(config)) {
@@ -203,16 +212,18 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
       for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
     }
     const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength });
-    return { agg, cols, defs, sliceAggs };
+    return { agg, ranking, cols, defs, sliceAggs };
   });
   const t1 = performance.now();
   const slices: SliceProfile[] = [];
   for (const [i, def] of defs.entries()) {
+    // The SQL ranking pass is not run per slice: a slice's association comes from its rows in the
+    // day's whole-list sample (pushdownAssociation: sql leaves it empty), and it has no outcome.
     const sample = await buildDayProfile(subsetColumns(cols, sliceRows(cols, def)), config, null);
-    slices.push({ slice: def.name, kind: def.kind, profile: assemblePushdownProfile(date, sliceAggs[i]!, sample, config, specsOf(def.name)) });
+    slices.push({ slice: def.name, kind: def.kind, profile: withRankingAggregates(assemblePushdownProfile(date, sliceAggs[i]!, sample, config, specsOf(def.name)), undefined, sample, config, false) });
   }
   const sample = await buildDayProfile(cols, config, null, threadedProfiler());
-  const profile = assemblePushdownProfile(date, agg, sample, config, specs);
+  const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, config, specs), ranking, sample, config, plan.hasLabel);
   deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, slices: defs.length, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
   return hasSlices(config) ? { ...profile, slices } : profile;
 }
@@ -316,6 +327,29 @@ async function ensureBaseline(deps: RunDeps, plan: SourcePlan, runDate: string):
   return { baseline, slices: sliceBaselines, fresh: true, newDays };
 }
 
+/**
+ * With outcome.labelLagDays = L > 0, the outcome checks judge the labels of runDate - L,
+ * which have matured since that day was profiled: its outcome and those of its own baseline
+ * window's days are re-read from the source now, in one read-only statement grouped by date
+ * (the ranking pass of the pushdown engine, restricted to list id, position and label; the
+ * stream engine uses it too, since both engines compute the same sums). Every day re-read is
+ * at least L days old. Undefined when labels do not lag (the day's own outcome is used).
+ */
+async function laggedOutcome(deps: RunDeps, plan: SourcePlan, runDate: string): Promise<OutcomeInput | undefined> {
+  const lag = deps.config.outcome.labelLagDays;
+  if (lag === 0 || !plan.hasLabel) return undefined;
+  const date = addDays(runDate, -lag);
+  const window = baselineDates(deps.config.baseline.window, date);
+  const t0 = performance.now();
+  const agg = await readSource(deps, `re-reading the labels of ${date} and its baseline days`, (client) => readRankingAggregates(client, deps.config, plan, [date, ...window], { association: false, outcome: true }));
+  deps.log.debug('lagged outcome read', { runDate, outcomeDate: date, days: agg.size, seconds: (performance.now() - t0) / 1000 });
+  return {
+    date,
+    current: agg.get(date)?.outcome ?? null,
+    baselineDays: window.filter((d) => agg.has(d)).map((d) => ({ date: d, outcome: agg.get(d)!.outcome })),
+  };
+}
+
 /** The baseline's extreme-value bounds per numeric feature, which the pushdown engine counts against. */
 function extremeBoundsOf(config: Config, baseline: BaselineProfile): NonNullable<PushdownSpecs['extremeBounds']> {
   const out: NonNullable<PushdownSpecs['extremeBounds']> = {};
@@ -365,11 +399,13 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     const dayProfiles = [...built.newDays.filter((d) => d.fingerprint === profileFp).map((d) => d.profile), today.whole];
     const moreDayProfiles = [...built.newDays.filter((d) => d.fingerprint !== profileFp), ...today.slices];
 
+    const outcome = await laggedOutcome(deps, plan, runDate);
     let drafts: FindingDraft[] = evaluateSlices(
       deps.config,
       baseline,
       current,
       (current.slices ?? []).map((s) => ({ slice: s.slice, baseline: sliceBaselines.get(s.slice) ?? null, current: s.profile })),
+      outcome,
     );
     // A training set's volume says nothing about a day's: row and list counts are not compared with it.
     if (deps.config.baseline.source !== undefined) drafts = drafts.filter((d) => d.check !== 'row_count_ratio' && d.check !== 'list_count_ratio');
@@ -391,13 +427,24 @@ export async function runDay(deps: RunDeps, runDate: string): Promise<RunResult>
     return { report, durationSeconds };
   } catch (err) {
     const finished = now();
-    deps.log.error('run failed', { runDate, ...errorFields(err) });
+    const interrupted = wasInterrupted(deps.signal);
+    // Whatever the abort interrupted (a cancelled statement, a worker), its reason is the story.
+    const cause = deps.signal?.aborted === true && deps.signal.reason instanceof Error ? deps.signal.reason : err;
+    if (interrupted) deps.log.warn('run interrupted', { runDate, ...errorFields(cause) });
+    else deps.log.error('run failed', { runDate, ...errorFields(cause) });
     try {
-      await deps.store.recordFailure({ runDate, startedAt: started.toISOString(), finishedAt: finished.toISOString(), error: errorFields(err).error as string, configFingerprint: fingerprint });
+      await deps.store.recordFailure({
+        runDate,
+        startedAt: started.toISOString(),
+        finishedAt: finished.toISOString(),
+        error: errorFields(cause).error as string,
+        configFingerprint: fingerprint,
+        outcome: interrupted ? 'interrupted' : 'failure',
+      });
     } catch (recordErr) {
-      deps.log.error('could not record the failed run', errorFields(recordErr));
+      deps.log.error(`could not record the ${interrupted ? 'interrupted' : 'failed'} run`, errorFields(recordErr));
     }
-    throw err;
+    throw cause;
   }
 }
 

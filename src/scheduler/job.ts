@@ -14,7 +14,8 @@ import type { PruneResult, RetentionPolicy } from '../store/index.ts';
 import { retentionPolicy } from './retention.ts';
 
 export interface JobStore extends RunStore {
-  latestEvaluatedDate(): Promise<string | null>;
+  /** The newest evaluated date not after `notAfter` (a stored future date is no reason to stop catching up). */
+  latestEvaluatedDate(notAfter?: string): Promise<string | null>;
   storedDates(from: string, to: string): Promise<string[]>;
   prune(policy: RetentionPolicy, today: string): Promise<PruneResult>;
 }
@@ -33,7 +34,7 @@ export async function datesDue(deps: JobDeps, now: Date): Promise<string[]> {
   const target = targetDate(deps.config, now);
   const max = deps.config.schedule.catchUpMaxDays;
   const from = addDays(target, -max);
-  const latest = await deps.store.latestEvaluatedDate();
+  const latest = await deps.store.latestEvaluatedDate(target);
   const start = latest === null ? target : latest >= target ? null : addDays(latest, 1) > from ? addDays(latest, 1) : from;
   if (start === null) {
     const stored = await deps.store.storedDates(target, target);
@@ -72,7 +73,7 @@ export async function checkReadiness(deps: RunDeps, date: string): Promise<Readi
     const needed = Math.ceil(mean * r.minRowFraction);
     const ready = rows >= needed && rows > 0;
     return { ready, rows, reason: ready ? `${rows} rows (at least ${needed})` : `${rows} rows so far, waiting for ${needed} (${r.minRowFraction} x the baseline mean)` };
-  });
+  }, deps.signal !== undefined ? { signal: deps.signal } : {});
 }
 
 /**

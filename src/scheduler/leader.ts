@@ -13,6 +13,8 @@ export function leaderLockKeys(schema: string): [number, number] {
   return [h.readInt32BE(0), h.readInt32BE(4)];
 }
 
+export type LeaderRole = 'leader' | 'follower' | 'unavailable';
+
 export class LeaderLock {
   private client: PoolClient | null = null;
 
@@ -28,10 +30,19 @@ export class LeaderLock {
 
   /** Tries to become (or stay) leader; never throws. */
   async tryAcquire(): Promise<boolean> {
+    return (await this.acquire()) === 'leader';
+  }
+
+  /**
+   * Tries to become (or stay) leader and says why not: `follower` when another replica holds
+   * the lock, `unavailable` when the store could not be asked (a retry must not be dropped
+   * then: nobody else may be running it). Never throws.
+   */
+  async acquire(): Promise<LeaderRole> {
     if (this.client !== null) {
       try {
         await this.client.query('SELECT 1');
-        return true;
+        return 'leader';
       } catch (err) {
         this.log.warn('leader connection lost; giving up leadership', errorFields(err));
         this.drop(err as Error);
@@ -49,13 +60,13 @@ export class LeaderLock {
         });
         this.client = client;
         this.log.info('this replica is the leader: it runs the schedule');
-        return true;
+        return 'leader';
       }
       client.release();
-      return false;
+      return 'follower';
     } catch (err) {
       client?.release(err as Error);
-      return false;
+      return 'unavailable';
     }
   }
 

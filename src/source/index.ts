@@ -1,6 +1,6 @@
 export { planSource, checkJsonbKeys, sourceProblems, type SourcePlan, type FeaturePlan } from './plan.ts';
 export { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
-export { readDay, countDays, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
+export { readDay, countDays, firstSnapshotDate, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
 export {
   assemblePushdownProfile,
   buildPushdownQueries,
@@ -16,3 +16,4 @@ export {
 } from './pushdown.ts';
 export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';
 export type { RowFilter } from './pushdown.ts';
+export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';

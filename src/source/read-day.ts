@@ -309,3 +309,9 @@ export async function countDays(client: PoolClient, plan: SourcePlan, dates: rea
   for (const r of res.rows) result.set(r.d, Number(r.rows));
   return result;
 }
+
+/** The oldest snapshot date in the source, or null when it holds no rows. */
+export async function firstSnapshotDate(client: PoolClient, plan: SourcePlan): Promise<string | null> {
+  const res = await client.query<{ d: string | null }>(`SELECT min(${plan.dateColumn})::text AS d FROM ${plan.relation}`);
+  return res.rows[0]?.d ?? null;
+}

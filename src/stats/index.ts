@@ -30,5 +30,9 @@ export { NULL_CATEGORY, OTHER_CATEGORY, boundCategories, categoryPsi, truncateCa
 export type { CategoryCounts } from './categorical.ts';
 export { LARGE_MAGNITUDE, LARGE_SCALE_EXP, addToSplitSum, meanOfSplitSum } from './safesum.ts';
 export type { SplitSum } from './safesum.ts';
+export { RankScratch, averageRanksInto, rhoFromRanks, spearmanInto, spearmanRho } from './spearman.ts';
+export { POSITION_BUCKET_LABELS, POSITION_BUCKET_UPPER, ndcgAtK, positionBucket, reciprocalRank } from './ranking-outcome.ts';
+export { addToMeanSums, dailyMeanShift, emptyMeanSums, meanOfSums, mergeMeanSums, varianceOfSums } from './daily-mean-shift.ts';
+export type { MeanShift, MeanSums } from './daily-mean-shift.ts';
 export { countBeyondSorted, extremeBoundsSorted } from './extremes.ts';
 export type { ExtremeBounds, ExtremeBoundsOptions } from './extremes.ts';

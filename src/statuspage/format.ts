@@ -45,9 +45,12 @@ export interface CheckInfo {
   increase: boolean;
   /** One line for people who do not know the check by name. */
   about: string;
+  /** Thresholds apply to the size of the change from the baseline, up or down (ranking checks). */
+  change?: boolean;
 }
 
 const info = (label: string, unit: Unit, increase: boolean, about: string): CheckInfo => ({ label, unit, increase, about });
+const changeInfo = (label: string, about: string): CheckInfo => ({ label, unit: 'number', increase: false, about, change: true });
 
 export const CHECK_INFO: Record<string, CheckInfo> = {
   psi: info('PSI', 'number', false, 'Population stability index over the baseline’s quantile bins'),
@@ -75,6 +78,11 @@ export const CHECK_INFO: Record<string, CheckInfo> = {
   singleton_list_ratio: info('single-item lists', 'share', true, 'Share of lists with one item'),
   label_positive_ratio: info('positive label rate', 'times', false, 'Positive label rate against the baseline’s'),
   no_positive_list_ratio: info('lists without a positive', 'share', true, 'Share of lists with no positive label'),
+  position_rank_correlation: changeInfo('order association', 'Mean over lists of the Spearman correlation between the feature and the position (1 = top) inside each list'),
+  score_rank_correlation: changeInfo('score association', 'Mean over lists of the Spearman correlation between the feature and the model score inside each list'),
+  mean_reciprocal_rank: changeInfo('MRR', 'Mean reciprocal rank of the first positive label in served order, over lists with a positive'),
+  ndcg: changeInfo('NDCG@k', 'Mean NDCG@k of the labels in served order, over lists with a positive'),
+  positive_position_psi: info('click curve PSI', 'number', false, 'Population stability index of positive labels over served ranks 1, 2, 3, 4-5, 6-10, 11-20, 21+'),
 };
 
 export function checkInfo(check: string): CheckInfo {
@@ -128,6 +136,7 @@ export function describeThresholds(check: string, t: AppliedThresholds | undefin
   const c = checkInfo(check);
   if (t === undefined) return 'n/a';
   if (t.type === 'flag' || c.unit === 'flag') return 'critical when set';
+  if (c.change === true && t.type === 'above') return `warn at a change of ±${num(t.warn)}, critical at ±${num(t.critical)} from the baseline, once beyond its noise`;
   if (t.type === 'band') {
     const f = (x: number): string => formatUnit(c.unit, x);
     return `ok within ${f(t.warnBelow)} – ${f(t.warnAbove)}; critical below ${f(t.criticalBelow)} or above ${f(t.criticalAbove)}`;
@@ -148,6 +157,15 @@ const EVIDENCE_LABEL: Record<string, string> = {
   pValueMethod: 'p-value method',
   adjustedPValue: 'adjusted p-value (Benjamini-Hochberg)',
   noiseFloor: 'noise floor',
+  noise: 'no-change noise (standard deviation)',
+  z: 'change / noise',
+  lists: 'lists judged',
+  oppositeSignShare: 'lists against the baseline’s sign',
+  baselineOppositeSignShare: 'lists against the sign, baseline days',
+  baselineDaySd: 'spread of the baseline’s daily means',
+  betweenDaySd: 'day-to-day spread beyond sampling',
+  currentSe: 'standard error of the day’s mean',
+  outcomeDate: 'labels of',
   binsUsed: 'bins in use',
   listsJudged: 'lists judged',
   flatLists: 'flat lists',

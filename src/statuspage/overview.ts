@@ -136,7 +136,7 @@ function featureGrid(report: Report, rows: FeatureRow[], problemsOnly: boolean, 
 /** How a dataset finding's evidence.baseline / evidence.current read. */
 export function sideFormat(check: string): (x: number | null | undefined) => string {
   const unit = checkInfo(check).unit;
-  if (unit === 'share' || check === 'label_positive_ratio') return pct;
+  if (unit === 'share' || check === 'label_positive_ratio' || check === 'positive_position_psi') return pct;
   return num;
 }
 
@@ -157,7 +157,7 @@ function datasetSection(report: Report): SafeHtml {
     const binsTable =
       bins.length === 0
         ? null
-        : html`<details><summary>List sizes that moved most</summary><table><thead><tr><th scope="col">Size</th><th scope="col" class="num">Baseline</th><th scope="col" class="num">Current</th><th scope="col" class="num">Contribution</th></tr></thead><tbody>${bins.map((x) => html`<tr><th scope="row">${x.bin}</th><td class="num">${pct(x.baselineShare)}</td><td class="num">${pct(x.currentShare)}</td><td class="num">${num(x.contribution)}</td></tr>`)}</tbody></table></details>`;
+        : html`<details><summary>${f.check === 'positive_position_psi' ? 'Ranks whose share of positives moved most' : 'List sizes that moved most'}</summary><table><thead><tr><th scope="col">${f.check === 'positive_position_psi' ? 'Served rank' : 'Size'}</th><th scope="col" class="num">Baseline</th><th scope="col" class="num">Current</th><th scope="col" class="num">Contribution</th></tr></thead><tbody>${bins.map((x) => html`<tr><th scope="row">${x.bin}</th><td class="num">${pct(x.baselineShare)}</td><td class="num">${pct(x.currentShare)}</td><td class="num">${num(x.contribution)}</td></tr>`)}</tbody></table></details>`;
     return html`<tr><th scope="row">${checkInfo(f.check).label}<br><code class="muted">${f.check}</code></th><td class="c s-${statusOf(f)}"><span class="st">${statusText(statusOf(f))}</span>${alertTag(f) === null ? null : html` ${alertTag(f)}`}</td><td class="num">${formatValue(f.check, f.value)}</td><td class="num">${side(evidenceNumber(f.evidence?.baseline))}</td><td class="num">${side(evidenceNumber(f.evidence?.current))}</td><td class="small">${describeThresholds(f.check, f.thresholds)}</td><td class="small">${f.summary}${binsTable}</td></tr>`;
   });
   const table =

@@ -19,6 +19,7 @@ import type { WithinListRule } from '../config/index.ts';
 import { bytesToFloat64, decodeJson, encodeJson, float64ToBytes } from './codec.ts';
 import { DayProfileStore } from './day-profiles.ts';
 import { migrate, pendingMigrations, type MigrateOptions } from './migrate.ts';
+import { runsChannel } from './notify.ts';
 import { prune, type PruneResult, type RetentionPolicy } from './retention.ts';
 import { wrapped } from './wrap.ts';
 
@@ -30,6 +31,8 @@ export interface FailureRecord {
   finishedAt: string;
   error: string;
   configFingerprint: string;
+  /** 'interrupted': stopped on purpose (shutdown); not a verdict and not a failure. Default 'failure'. */
+  outcome?: 'failure' | 'interrupted';
 }
 
 /**
@@ -54,9 +57,12 @@ export interface RunStats {
   /** finished_at of the newest run, successful or not. */
   lastRunAt: string | null;
   lastDurationSeconds: number | null;
+  /** Outcome of the newest run that was not interrupted. */
   lastOutcome: 'success' | 'failure' | null;
   successes: number;
   failures: number;
+  /** Runs stopped by a shutdown (not counted in successes or failures). */
+  interrupted: number;
   /** Error of the newest failed run, even when a success came after it (check lastOutcome). */
   lastError: string | null;
 }
@@ -124,6 +130,8 @@ export class Store {
   private readonly baselines: string;
   private readonly samples: string;
   private readonly dayProfiles: DayProfileStore;
+  /** NOTIFY channel of this schema (see notify.ts). */
+  readonly channel: string;
 
   constructor(pool: Pool, schema: string) {
     if (schema.length === 0 || Buffer.byteLength(schema, 'utf8') > 63) {
@@ -138,6 +146,7 @@ export class Store {
     this.baselines = `${s}.baselines`;
     this.samples = `${s}.baseline_samples`;
     this.dayProfiles = new DayProfileStore(pool, schema);
+    this.channel = runsChannel(schema);
   }
 
   /** Applies pending migrations to this store's schema; returns the files applied. */
@@ -246,28 +255,41 @@ export class Store {
             [report.runDate],
           );
         }
+        // Delivered to the LISTENing replicas only when this transaction commits.
+        await client.query('SELECT pg_notify($1, $2)', [this.channel, report.runDate]);
       }),
     );
   }
 
-  /** Records a failed run. Findings and alert state are not touched. */
+  /** Records a failed (or interrupted) run. Findings and alert state are not touched. */
   async recordFailure(failure: FailureRecord): Promise<void> {
     checkDate(failure.runDate, 'runDate');
     const duration = durationSeconds(failure.startedAt, failure.finishedAt);
-    await wrapped(`recording the failed run of ${failure.runDate} failed`, () =>
+    const outcome = failure.outcome ?? 'failure';
+    await wrapped(`recording the ${outcome === 'failure' ? 'failed' : 'interrupted'} run of ${failure.runDate} failed`, () =>
+      // One statement: the row and its notification commit together.
       this.pool.query(
-        `INSERT INTO ${this.runs} (run_date, started_at, finished_at, outcome, config_fingerprint, error, duration_seconds)
-         VALUES ($1, $2, $3, 'failure', $4, $5, $6)`,
-        [failure.runDate, failure.startedAt, failure.finishedAt, failure.configFingerprint, failure.error, duration],
+        `WITH ins AS (
+           INSERT INTO ${this.runs} (run_date, started_at, finished_at, outcome, config_fingerprint, error, duration_seconds)
+           VALUES ($1, $2, $3, $7, $4, $5, $6) RETURNING run_date
+         )
+         SELECT pg_notify($8, run_date::text) FROM ins`,
+        [failure.runDate, failure.startedAt, failure.finishedAt, failure.configFingerprint, failure.error, duration, outcome, this.channel],
       ),
     );
   }
 
-  /** The report of the newest evaluated date (its newest successful run), or null. */
-  async latestReport(): Promise<Report | null> {
+  /**
+   * The report of the newest evaluated date (its newest successful run), or null. With
+   * `notAfter` (today), a run stored for a later date is passed over: a date in the future
+   * cannot be the latest verdict.
+   */
+  async latestReport(notAfter?: string): Promise<Report | null> {
+    if (notAfter !== undefined) checkDate(notAfter, 'notAfter');
     const res = await wrapped('reading the latest report failed', () =>
       this.pool.query<{ report: Report }>(
-        `SELECT report FROM ${this.runs} WHERE outcome = 'success' ORDER BY run_date DESC, id DESC LIMIT 1`,
+        `SELECT report FROM ${this.runs} WHERE outcome = 'success' AND ($1::date IS NULL OR run_date <= $1::date) ORDER BY run_date DESC, id DESC LIMIT 1`,
+        [notAfter ?? null],
       ),
     );
     return res.rows[0]?.report ?? null;
@@ -299,10 +321,14 @@ export class Store {
     return res.rows.map((r) => r.run_date);
   }
 
-  /** The newest date with a successful run, or null. */
-  async latestEvaluatedDate(): Promise<string | null> {
+  /** The newest date with a successful run (not after `notAfter`, when given), or null. */
+  async latestEvaluatedDate(notAfter?: string): Promise<string | null> {
+    if (notAfter !== undefined) checkDate(notAfter, 'notAfter');
     const res = await wrapped('reading the newest evaluated date failed', () =>
-      this.pool.query<{ run_date: string | null }>(`SELECT max(run_date)::text AS run_date FROM ${this.runs} WHERE outcome = 'success'`),
+      this.pool.query<{ run_date: string | null }>(
+        `SELECT max(run_date)::text AS run_date FROM ${this.runs} WHERE outcome = 'success' AND ($1::date IS NULL OR run_date <= $1::date)`,
+        [notAfter ?? null],
+      ),
     );
     return res.rows[0]?.run_date ?? null;
   }
@@ -408,10 +434,12 @@ export class Store {
         last_outcome: 'success' | 'failure' | null;
         successes: string;
         failures: string;
+        interrupted: string;
         last_error: string | null;
       }>(
+        // An interrupted run is no verdict: the "last run" health comes from the newest other one.
         `WITH last AS (
-           SELECT finished_at, duration_seconds, outcome FROM ${this.runs} ORDER BY finished_at DESC, id DESC LIMIT 1
+           SELECT finished_at, duration_seconds, outcome FROM ${this.runs} WHERE outcome <> 'interrupted' ORDER BY finished_at DESC, id DESC LIMIT 1
          )
          SELECT (SELECT max(finished_at) FROM ${this.runs} WHERE outcome = 'success') AS last_success_at,
                 (SELECT finished_at FROM last) AS last_run_at,
@@ -419,6 +447,7 @@ export class Store {
                 (SELECT outcome FROM last) AS last_outcome,
                 (SELECT count(*) FROM ${this.runs} WHERE outcome = 'success') AS successes,
                 (SELECT count(*) FROM ${this.runs} WHERE outcome = 'failure') AS failures,
+                (SELECT count(*) FROM ${this.runs} WHERE outcome = 'interrupted') AS interrupted,
                 (SELECT error FROM ${this.runs} WHERE outcome = 'failure' ORDER BY finished_at DESC, id DESC LIMIT 1) AS last_error`,
       ),
     );
@@ -431,6 +460,7 @@ export class Store {
       // count(*) is bigint, which pg hands over as a string.
       successes: Number(r.successes),
       failures: Number(r.failures),
+      interrupted: Number(r.interrupted),
       lastError: r.last_error,
     };
   }

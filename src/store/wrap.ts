@@ -3,6 +3,7 @@
  * original error stays as `cause` (its SQLSTATE `code` included) for callers that branch
  * on it; the message never carries a connection string.
  */
+import { redactUrls } from '../config/index.ts';
 import { isConnectionError, sqlState } from '../db/index.ts';
 import { StoreError } from '../errors.ts';
 
@@ -37,7 +38,5 @@ function describe(err: unknown): string {
   return redact(state !== undefined ? `${text} (SQLSTATE ${state})` : text);
 }
 
-/** Removes anything that looks like a URL (a connection string may hold a password). */
-function redact(text: string): string {
-  return text.replace(/\b[a-z][a-z0-9+.-]*:\/\/\S+/gi, '<url>');
-}
+/** A connection string inside a driver message may hold a password: mask it (config's one redaction helper). */
+const redact = redactUrls;

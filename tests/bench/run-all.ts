@@ -6,6 +6,7 @@
 import { main as statsBench } from './stats.bench.ts';
 import { main as runBench } from './run.bench.ts';
 import { main as pushdownBench } from './pushdown.bench.ts';
+import { main as rankingBench } from './ranking.bench.ts';
 import { main as trustBench } from './trust.bench.ts';
 import { main as storeBench } from './store.bench.ts';
 import { main as slicesBench } from './slices.bench.ts';
@@ -19,6 +20,8 @@ console.log('');
 console.log('== the pushdown engine: one server, two shards, memory as the day grows (tests/bench/pushdown.bench.ts)');
 await pushdownBench();
 console.log('');
+console.log('== the ranking checks: stream profile with and without, pushdown ranking pass (tests/bench/ranking.bench.ts)');
+await rankingBench();
 console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
 await trustBench();
 console.log('');

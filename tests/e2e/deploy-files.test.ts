@@ -14,7 +14,7 @@ import { parseAllDocuments, parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../src/config/index.ts';
 import { ALL_ALERTS, DEFAULT_RUNBOOK_URL, alertNameFor, runbookAnchor } from '../../src/exporter/index.ts';
-import { CHECK_KIND, type CheckName } from '../../src/report/contract.ts';
+import { CHECK_KIND, DATASET_CHECKS, type CheckName } from '../../src/report/contract.ts';
 import { findExecutable } from '../support/tools.ts';
 
 const ROOT = fileURLToPath(new URL('../../', import.meta.url));
@@ -104,7 +104,7 @@ describe('the alert rules', () => {
           return !re.test(check);
         });
         // Feature checks only match rules on plumbline_feature_*, dataset checks on plumbline_dataset_*.
-        const family = CHECK_KIND[check as CheckName] === 'dataset' ? 'plumbline_dataset_check_alerting' : 'plumbline_feature_check_alerting';
+        const family = (DATASET_CHECKS as readonly string[]).includes(check) ? 'plumbline_dataset_check_alerting' : 'plumbline_feature_check_alerting';
         if (selected && r.expr.includes(family)) out.add(r.alert);
       }
       return [...out];
@@ -202,7 +202,7 @@ describe('the Kubernetes manifests', () => {
     expect(configMap.metadata.name).toBe('plumbline-config');
     const text = configMap.data!['plumbline.yaml']!;
     const config = parseConfig(parse(text), 'configmap plumbline.yaml');
-    expect(config.http).toEqual({ host: '0.0.0.0', port: 9467 });
+    expect(config.http).toMatchObject({ host: '0.0.0.0', port: 9467, manualRuns: { enabled: false } });
     // The comment right above `host:` explains why it is not the default 127.0.0.1.
     const before = text.slice(0, text.indexOf('host: 0.0.0.0'));
     expect(before).toMatch(/# .*127\.0\.0\.1[\s\S]*probe/);

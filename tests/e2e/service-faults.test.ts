@@ -24,6 +24,8 @@ const url = testDatabaseUrl();
 /** What the services connect with: a name of their own in pg_stat_activity (see withApplicationName). */
 const svcUrl = url === undefined ? '' : withApplicationName(url, 'plumbline-e2e-service');
 const BASELINE_DAYS = 7;
+/** The bearer token of manual runs (http.manualRuns.enabled), as an operator would give it. */
+const RUN_TOKEN = 'service-faults-run-token-0123';
 
 /** The date the service's catch-up evaluates (schedule.lagDays 1, UTC). Near 00:00 UTC the two clocks could disagree for a moment. */
 const yesterday = (): string => addDays(new Date().toISOString().slice(0, 10), -1);
@@ -42,7 +44,7 @@ function serviceConfig(table: string, storeSchema: string, layout: 'wide' | 'jso
       baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
       // 1 January at 00:00: the tests drive runs through the catch-up on start and POST /api/v1/runs.
       schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 2, retryBaseSeconds: 1 },
-      http: { host: '127.0.0.1', port: 0 },
+      http: { host: '127.0.0.1', port: 0, manualRuns: { enabled: true } },
       ...extra,
     },
   });
@@ -94,7 +96,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     proxies.push(proxy);
     await proxy.pause();
     const dbUrl = proxy.rewrite(svcUrl);
-    const svc = await startService({ config: serviceConfig(table, store), sourceUrl: dbUrl, storeUrl: dbUrl });
+    const svc = await startService({ runToken: RUN_TOKEN, config: serviceConfig(table, store), sourceUrl: dbUrl, storeUrl: dbUrl });
 
     // Alive, not ready, and saying why.
     expect((await svc.get('/healthz')).status).toBe(200);
@@ -102,11 +104,15 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     expect(notReady.status).toBe(503);
     const body = notReady.json as { ready: boolean; reasons: string[] };
     expect(body.ready).toBe(false);
-    expect(body.reasons.some((r) => r.startsWith('store unreachable'))).toBe(true);
+    // Only the words: the store's host, port and driver text stay in the log.
+    expect(body.reasons).toEqual(['store unreachable']);
+    expect(notReady.body).not.toMatch(/127\.0\.0\.1|ECONNREFUSED|connect/);
+    await svc.waitForLog('the readiness detail in the log', (l) => l.msg === 'readiness: store unreachable' && typeof l['error'] === 'string', 5000);
     await until('plumbline_store_up 0 and plumbline_source_up 0', 10_000, async () => ((await svc.metric('plumbline_store_up')) === 0 && (await svc.metric('plumbline_source_up')) === 0 ? true : undefined));
-    // No run can start without the store.
+    // No run can start without the store (503: not ready, try later).
     const refused = await svc.post(`/api/v1/runs?date=${day}`);
-    expect(refused.status).toBe(409);
+    expect(refused.status).toBe(503);
+    expect(refused.json).toEqual({ accepted: false, message: 'the store is not ready yet' });
     // It keeps trying (two attempts: at start and after the first backoff), and stays up.
     await svc.waitForLog('two store retries', () => svc.logs.filter((l) => l.msg === 'store not available yet; retrying').length >= 2, 15_000);
     expect(svc.exit).toBeNull();
@@ -143,7 +149,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     // The source goes through the proxy, so its server sessions are known by their client port.
     const proxy = await startTcpProxy(url!);
     proxies.push(proxy);
-    const svc = await startService({ config: serviceConfig(table, store), sourceUrl: proxy.rewrite(svcUrl), storeUrl: svcUrl });
+    const svc = await startService({ runToken: RUN_TOKEN, config: serviceConfig(table, store), sourceUrl: proxy.rewrite(svcUrl), storeUrl: svcUrl });
     const before = await until(`the catch-up report for ${day}`, 60_000, () => reportOf(svc, day), 250);
     await until('the metrics of the first run', 10_000, async () => ((await svc.metric('plumbline_runs_total')) === 1 ? true : undefined));
     const failuresBefore = await svc.metric('plumbline_run_failures_total');
@@ -170,7 +176,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const from = svc.logs.length;
     let failedAt: number;
     try {
-      const res = await svc.post(`/api/v1/runs?date=${day}`);
+      const res = await svc.postRun(`/api/v1/runs?date=${day}`);
       expect(res.status).toBe(202);
       await svc.waitForLog('the killed run to fail', (l) => l.msg === 'run failed' && l['runDate'] === day, 30_000, from);
       failedAt = Date.now();
@@ -223,16 +229,16 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     expect(rows).toBeGreaterThan(150_000);
 
     const config = serviceConfig(table, store);
-    const svc = await startService({ config, sourceUrl: svcUrl });
+    const svc = await startService({ runToken: RUN_TOKEN, config, sourceUrl: svcUrl });
     const before = await until(`the catch-up report for ${day}`, 60_000, () => reportOf(svc, day), 250);
     expect(before.current.rows).toBe(rows);
 
     const from = svc.logs.length;
-    expect((await svc.post(`/api/v1/runs?date=${day}`)).status).toBe(202);
+    expect((await svc.postRun(`/api/v1/runs?date=${day}`)).status).toBe(202);
     await svc.waitForLog('the re-run to start', (l) => l.msg === 'running a date' && l['date'] === day, 10_000, from);
     const sent = Date.now();
     svc.signal('SIGTERM');
-    // The grace period for a run in progress is 20 s, then 5 s for the abort: it must be gone by then.
+    // schedule.shutdownGraceSeconds (default 20 s) bounds the whole stop, the abort of the run included.
     const exit = await until('the service to exit after SIGTERM', 30_000, () => svc.exit ?? undefined, 50);
     const exitedAfterMs = Date.now() - sent;
     expect(exit).toEqual({ code: 0, signal: null });
@@ -240,7 +246,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     // SIGTERM arrived while the re-run was in progress (else this test proves nothing).
     const stopping = logIndex(svc, (l) => l.msg === 'stopping', from);
     const completed = logIndex(svc, (l) => l.msg === 'run completed' && l['runDate'] === day, from);
-    const failed = logIndex(svc, (l) => l.msg === 'run failed' && l['runDate'] === day, from);
+    const failed = logIndex(svc, (l) => (l.msg === 'run failed' || l.msg === 'run interrupted') && l['runDate'] === day, from);
     expect(stopping, svc.tail()).toBeGreaterThan(0);
     expect(completed < 0 || completed > stopping, 'the re-run completed before SIGTERM arrived: make the day bigger').toBe(true);
     expect(failed < 0 || failed > stopping).toBe(true);
@@ -255,10 +261,11 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const findings = (await q(`SELECT run_id::text AS run_id, count(*)::int AS n FROM S.findings WHERE run_date = $1::date GROUP BY run_id`)).rows as { run_id: string; n: number }[];
     expect(findings).toEqual([{ run_id: String(newest.id), n: newest.n }]);
     const outcome = successes.length === 2 ? 'the complete new run' : `the previous run (the re-run failed and stored nothing: ${String(svc.logs[failed]?.['error'])})`;
-    if (successes.length === 1) expect(runs.filter((r) => r.outcome === 'failure')).toHaveLength(1);
+    // A run stopped by the shutdown is recorded as interrupted, not as a failure that pages.
+    if (successes.length === 1) expect(runs.filter((r) => r.outcome !== 'success').map((r) => r.outcome)).toEqual(['interrupted']);
 
     // After a restart the service serves the same, whole report.
-    const again = await startService({ config, sourceUrl: svcUrl });
+    const again = await startService({ runToken: RUN_TOKEN, config, sourceUrl: svcUrl });
     const served = await until(`the report for ${day} after the restart`, 30_000, () => reportOf(again, day), 250);
     expect(served.findings).toHaveLength(newest.n!);
     if (successes.length === 1) expect(served).toEqual(before);
@@ -315,8 +322,8 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     expect(counts.text).toBeGreaterThan(0);
 
     const [wide, json] = await Promise.all([
-      startService({ config: serviceConfig(`${wideSrc}.impressions`, wideStore), sourceUrl: svcUrl }),
-      startService({ config: serviceConfig(`${jsonSrc}.impressions`, jsonStore, 'jsonb'), sourceUrl: svcUrl }),
+      startService({ runToken: RUN_TOKEN, config: serviceConfig(`${wideSrc}.impressions`, wideStore), sourceUrl: svcUrl }),
+      startService({ runToken: RUN_TOKEN, config: serviceConfig(`${jsonSrc}.impressions`, jsonStore, 'jsonb'), sourceUrl: svcUrl }),
     ]);
     const cases = [
       { svc: wide, feature: 'text_match', check: 'nonfinite_ratio', bad: counts.nonfinite },
@@ -326,12 +333,8 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
       await until(`the catch-up report for ${day}`, 60_000, () => reportOf(svc, day), 250);
       // And once more by request: a faulty day run on demand must not stop the service either.
       const from = svc.logs.length;
-      // The scheduled job may still be finishing (pruning the store after the stored day): 409 busy until it has.
-      const accepted = await until('the service to accept a manual run', 15_000, async () => {
-        const status = (await svc.post(`/api/v1/runs?date=${day}`)).status;
-        return status === 409 ? undefined : status;
-      }, 100);
-      expect(accepted).toBe(202);
+      // The scheduled job may still be finishing (pruning the store after the stored day): postRun waits out 409 busy.
+      expect((await svc.postRun(`/api/v1/runs?date=${day}`)).status).toBe(202);
       await svc.waitForLog('the requested run to complete', (l) => (l.msg === 'run completed' || l.msg === 'run failed') && l['runDate'] === day, 30_000, from);
       expect(svc.logs.slice(from).some((l) => l.msg === 'run failed')).toBe(false);
       expect(svc.exit).toBeNull();

@@ -1,9 +1,10 @@
 /**
- * The status page in a real browser: a real store (PostgreSQL from
- * PLUMBLINE_TEST_DATABASE_URL, else PGlite in process) holding three stored runs, the real
- * HTTP server with the status page as its page handler, and headless Chromium driven by
- * playwright-core. Checks what a person sees: the overview grid, the problems filter, a
- * feature page with its charts, the error page, and that nothing is fetched from elsewhere.
+ * The status page in a real browser, served the way it is deployed: a `plumbline serve`
+ * process (http.statusPage defaults to true) over a real store (PostgreSQL from
+ * PLUMBLINE_TEST_DATABASE_URL, else PGlite in process) holding three stored runs, and
+ * headless Chromium driven by playwright-core. Checks what a person sees: the overview grid,
+ * the problems filter, a feature page with its charts, the error page, and that nothing is
+ * fetched from elsewhere.
  *
  * Uses the system Chromium at /usr/bin/chromium and never downloads a browser. Without it the
  * suite is skipped (and fails when CI=true). Screenshots go to tests/e2e/artifacts/.
@@ -12,19 +13,23 @@ import { existsSync, mkdirSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import pg from 'pg';
+import { loadScenario } from '../../demo-data/load.ts';
 import { createPool, quoteIdent, type Pool } from '../../src/db/index.ts';
-import { PlumblineMetrics, startHttpServer, type RunningHttpServer } from '../../src/exporter/index.ts';
-import { createStatusPage } from '../../src/statuspage/index.ts';
 import { Store } from '../../src/store/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
-import { startPglite, type PgliteServer } from '../support/pglite.ts';
+import { startEmbeddedPostgres, type EmbeddedPostgres } from '../../src/demo/index.ts';
+import { scenarioConfig } from '../support/scenario-config.ts';
+import { startService, type ServiceProcess } from '../support/service.ts';
+import { until } from '../support/tools.ts';
 import { scenarioDay } from '../unit/statuspage/fixtures.ts';
 
 const CHROMIUM = '/usr/bin/chromium';
 const HAS_CHROMIUM = existsSync(CHROMIUM);
 const IN_CI = process.env['CI'] === 'true';
 const ARTIFACTS = fileURLToPath(new URL('./artifacts/', import.meta.url));
-const DATES = ['2031-05-08', '2031-05-09', '2031-05-10'] as const;
+// Past dates: a date after today is never the "latest" run.
+const DATES = ['2025-05-08', '2025-05-09', '2025-05-10'] as const;
 
 if (!HAS_CHROMIUM && IN_CI) {
   describe('status page in a browser', () => {
@@ -35,10 +40,12 @@ if (!HAS_CHROMIUM && IN_CI) {
 }
 
 describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' (skipped: /usr/bin/chromium not found)'}`, () => {
-  let pglite: PgliteServer | undefined;
+  let pglite: EmbeddedPostgres | undefined;
   let pool: Pool;
   let schema: string;
-  let server: RunningHttpServer;
+  let srcSchema: string | undefined;
+  let server: { url: string };
+  let svc: ServiceProcess | undefined;
   let launching: Promise<Browser> | undefined;
   let browser: Browser | undefined;
   let page: Page;
@@ -54,32 +61,33 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     });
     // Reported when awaited below; closed in afterAll even if the database setup fails first.
     launching.catch(() => undefined);
-    const url = testDatabaseUrl() ?? (pglite = await startPglite()).url;
-    // PGlite serves one connection at a time (see tests/support/pglite.ts).
+    // Without a server: the embedded PostgreSQL the demo serves from (PGlite with room for the
+    // service's connections: source, store, leader lock, notifications). Its single session
+    // serves one statement at a time, so this test's own pool uses one connection.
+    const url = testDatabaseUrl() ?? (pglite = await startEmbeddedPostgres({ maxConnections: 16 })).url;
     pool = createPool({ url, applicationName: 'plumbline-statuspage-e2e', statementTimeoutMs: 30_000, max: pglite === undefined ? 4 : 1 });
     schema = uniqueSchema('statuspage_e2e');
     const store = new Store(pool, schema);
     await store.migrate();
     for (const [i, date] of DATES.entries()) await store.saveRun(scenarioDay(i as 0 | 1 | 2, date));
 
-    const metrics = new PlumblineMetrics({ version: 'e2e', defaultMetrics: false });
-    server = await startHttpServer(
-      {
-        metrics,
-        latestReport: () => store.latestReport(),
-        reportFor: (d) => store.reportFor(d),
-        readiness: async () => ({ ready: true, reasons: [] }),
-        page: createStatusPage({
-          title: 'hardware search, test',
-          latestReport: () => store.latestReport(),
-          reportFor: (d) => store.reportFor(d),
-          history: (q) => store.history(q),
-          storedDates: (from, to) => store.storedDates(from, to),
-        }),
-        onError: (err) => problems.push(`server: ${String(err)}`),
-      },
-      { host: '127.0.0.1', port: 0 },
-    );
+    // The service's source: one small old day, so the catch-up on start finds yesterday not
+    // ready and stores nothing (the page shows exactly the three runs above).
+    srcSchema = uniqueSchema('statuspage_src');
+    const loader = new pg.Client({ connectionString: url });
+    await loader.connect();
+    try {
+      await loadScenario(loader, { table: `${srcSchema}.impressions`, layout: 'wide', scenario: { startDate: '2025-01-06', days: 1, listsPerDay: 5, meanListSize: 4, seed: 3, faults: [] } });
+    } finally {
+      await loader.end();
+    }
+    const config = scenarioConfig(`${srcSchema}.impressions`, {
+      storeSchema: schema,
+      overrides: { schedule: { cron: '0 0 1 1 *', timezone: 'UTC', catchUpMaxDays: 0 }, http: { host: '127.0.0.1', port: 0 } },
+    });
+    svc = await startService({ config, sourceUrl: url });
+    server = { url: svc.url };
+    await until('the service to be ready', 30_000, async () => ((await svc!.get('/readyz')).status === 200 ? true : undefined), 200);
 
     browser = await launching;
     page = await browser.newPage({ viewport: { width: 1440, height: 900 } });
@@ -93,9 +101,10 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
   afterAll(async () => {
     const b = browser ?? (await launching?.catch(() => undefined));
     await b?.close();
-    await server?.close();
+    if (svc !== undefined) expect(await svc.stop()).toEqual({ code: 0, signal: null });
     if (pool !== undefined) {
       if (schema !== undefined) await pool.query(`DROP SCHEMA IF EXISTS ${quoteIdent(schema)} CASCADE`);
+      if (srcSchema !== undefined) await pool.query(`DROP SCHEMA IF EXISTS ${quoteIdent(srcSchema)} CASCADE`);
       await pool.end();
     }
     await pglite?.stop();
@@ -105,8 +114,8 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     const res = await page.goto(`${server.url}/`);
     expect(res?.status()).toBe(200);
     expect(res?.headers()['content-type']).toBe('text/html; charset=utf-8');
-    expect(await page.title()).toBe('Overview 2031-05-10: ✖ critical · hardware search, test · Plumbline');
-    await expect.poll(() => page.locator('h1').innerText()).toContain('Run of 2031-05-10');
+    expect(await page.title()).toBe('Overview 2025-05-10: ✖ critical · Plumbline');
+    await expect.poll(() => page.locator('h1').innerText()).toContain('Run of 2025-05-10');
     expect(await page.locator('h1 .badge').innerText()).toBe('✖ critical');
 
     const names = await page.locator('table.grid tbody th a').allInnerTexts();
@@ -126,7 +135,7 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
       'list size PSI\nlist_size_psi',
       'duplicate items\nduplicate_item_ratio',
     ]);
-    expect(await page.locator('ul.dates li').allInnerTexts()).toEqual(['2031-05-10', '2031-05-09', '2031-05-08']);
+    expect(await page.locator('ul.dates li').allInnerTexts()).toEqual(['2025-05-10', '2025-05-09', '2025-05-08']);
     await page.screenshot({ path: `${ARTIFACTS}overview.png`, fullPage: true });
   });
 
@@ -136,16 +145,16 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     await page.waitForURL(/problems=1/);
     expect(await page.locator('table.grid tbody th a').allInnerTexts()).toEqual(['price_rel', 'title_match']);
     // An older date shows that day's verdict.
-    await page.getByRole('link', { name: '‹ 2031-05-09' }).click();
-    await page.waitForURL(/date=2031-05-09/);
-    expect(await page.locator('h1').innerText()).toContain('Run of 2031-05-09');
+    await page.getByRole('link', { name: '‹ 2025-05-09' }).click();
+    await page.waitForURL(/date=2025-05-09/);
+    expect(await page.locator('h1').innerText()).toContain('Run of 2025-05-09');
     expect(page.url()).toContain('problems=1');
   });
 
   it('follows a feature link to a page with the histogram and the charts drawn', async () => {
     await page.goto(`${server.url}/`);
     await page.locator('table.grid tbody th a', { hasText: 'price_rel' }).click();
-    await page.waitForURL(/\/feature\/price_rel\?date=2031-05-10$/);
+    await page.waitForURL(/\/feature\/price_rel\?date=2025-05-10$/);
     expect(await page.locator('#feature-h').innerText()).toContain('price_rel');
 
     // One histogram and two line charts (PSI, KS D).
@@ -177,9 +186,9 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     await page.screenshot({ path: `${ARTIFACTS}feature.png`, fullPage: true });
 
     // The page's JSON link is served by the same server.
-    const json = await page.request.get(`${server.url}${await page.getByRole('link', { name: 'JSON report of 2031-05-10' }).getAttribute('href')}`);
+    const json = await page.request.get(`${server.url}${await page.getByRole('link', { name: 'JSON report of 2025-05-10' }).getAttribute('href')}`);
     expect(json.status()).toBe(200);
-    expect(((await json.json()) as { runDate: string }).runDate).toBe('2031-05-10');
+    expect(((await json.json()) as { runDate: string }).runDate).toBe('2025-05-10');
   });
 
   it('charts the within-list checks over the stored days', async () => {
@@ -196,7 +205,7 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     const res = await page.goto(`${server.url}/feature/no_such_feature`);
     expect(res?.status()).toBe(404);
     expect(await page.locator('h1').innerText()).toBe('Feature not found');
-    const res2 = await page.goto(`${server.url}/?date=2031-01-01`);
+    const res2 = await page.goto(`${server.url}/?date=2025-01-01`);
     expect(res2?.status()).toBe(404);
   });
 
@@ -208,5 +217,7 @@ describe.skipIf(!HAS_CHROMIUM)(`status page in a browser${HAS_CHROMIUM ? '' : ' 
     }
     // The 404 page logs a failed-resource message in some Chromium builds; nothing else may.
     expect(problems.filter((p) => !/status of 404/.test(p))).toEqual([]);
+    // The service logged nothing at error level while serving the pages.
+    expect(svc!.logs.filter((l) => l.level === 'error').map((l) => JSON.stringify(l))).toEqual([]);
   });
 });

@@ -95,6 +95,16 @@ describe('reports agree across databases and layouts', () => {
     }
   });
 
+  it('judges the ranking checks too, so the reports compared below cover them', () => {
+    const day = results['pglite-wide']![1]!;
+    const checks = new Set(day.findings.map((f) => f.check));
+    for (const c of ['position_rank_correlation', 'score_rank_correlation', 'mean_reciprocal_rank', 'ndcg', 'positive_position_psi']) expect(checks.has(c as never), c).toBe(true);
+    // The same per-list values from the jsonb layout (features untouched by that day's faults).
+    const a = day.findings.find((f) => f.feature === 'semantic_similarity' && f.check === 'position_rank_correlation')!;
+    const b = results['pglite-jsonb']![1]!.findings.find((f) => f.feature === 'semantic_similarity' && f.check === 'position_rank_correlation')!;
+    expect(b.value).toBe(a.value);
+  });
+
   const server = testDatabaseUrl();
   it.skipIf(server === undefined)('gives the same reports on the PostgreSQL server as on PGlite (both layouts)', async () => {
     const wide = await runOn(server!, 'wide');

@@ -305,6 +305,19 @@ function storeSuite(target: Target): void {
   });
 
   describe('runs and findings', () => {
+    it('latest passes over a run stored for a date after notAfter (a future date is never "latest")', async () => {
+      const store = await freshStore();
+      const past = report('2024-03-05', dayFindings(0));
+      const future = report('2024-04-30', dayFindings(0));
+      await store.saveRun(past);
+      await store.saveRun(future);
+      expect(await store.latestReport()).toEqual(future);
+      expect(await store.latestReport('2024-03-10')).toEqual(past);
+      expect(await store.latestReport('2024-04-30')).toEqual(future);
+      expect(await store.latestEvaluatedDate('2024-03-10')).toBe('2024-03-05');
+      expect(await store.latestReport('2024-03-01')).toBeNull();
+    });
+
     it('saveRun then reportFor returns the same report', async () => {
       const store = await freshStore();
       expect(await store.latestReport()).toBeNull();
@@ -453,6 +466,7 @@ function storeSuite(target: Target): void {
         lastOutcome: null,
         successes: 0,
         failures: 0,
+        interrupted: 0,
         lastError: null,
       });
       const good = report('2024-03-05', dayFindings(0), { startedAt: '2024-03-06T06:30:00.000Z', finishedAt: '2024-03-06T06:31:05.250Z' });
@@ -488,8 +502,21 @@ function storeSuite(target: Target): void {
         lastOutcome: 'failure',
         successes: 1,
         failures: 2,
+        interrupted: 0,
         lastError: 'baseline window has no data',
       });
+
+      // An interrupted run (shutdown) is history, not a verdict: the last-run health stays the failure's.
+      await store.recordFailure({
+        runDate: '2024-03-06',
+        startedAt: '2024-03-07T07:10:00.000Z',
+        finishedAt: '2024-03-07T07:10:03.000Z',
+        error: 'the service is shutting down',
+        configFingerprint: 'cfg-7f3a',
+        outcome: 'interrupted',
+      });
+      expect(await store.runStats()).toMatchObject({ lastRunAt: '2024-03-07T07:00:02.000Z', lastOutcome: 'failure', failures: 2, interrupted: 1 });
+      expect(await store.findingsFor('2024-03-05')).toEqual(findingsBefore);
 
       // A later success: it becomes the last run; lastError still tells the newest failure.
       await store.saveRun(report('2024-03-06', dayFindings(0), { startedAt: '2024-03-07T08:00:00.000Z', finishedAt: '2024-03-07T08:01:05.250Z' }));

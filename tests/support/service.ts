@@ -67,6 +67,8 @@ export interface ServiceOptions {
   env?: Record<string, string>;
   /** Echo the service's stderr to this process's stderr (debugging). */
   echo?: boolean;
+  /** Given as PLUMBLINE_RUN_TOKEN, and sent by post() as its bearer token. */
+  runToken?: string;
 }
 
 /** A running `plumbline serve` child process. */
@@ -78,6 +80,7 @@ export class ServiceProcess {
   readonly exited: Promise<ExitInfo>;
   exit: ExitInfo | null = null;
   url = '';
+  readonly runToken: string | undefined;
   private readonly child: ChildProcess;
   private readonly dir: string;
 
@@ -91,8 +94,10 @@ export class ServiceProcess {
       HOME: process.env.HOME ?? tmpdir(),
       PLUMBLINE_SOURCE_URL: options.sourceUrl,
       PLUMBLINE_STORE_URL: options.storeUrl ?? options.sourceUrl,
+      ...(options.runToken !== undefined ? { PLUMBLINE_RUN_TOKEN: options.runToken } : {}),
       ...options.env,
     };
+    this.runToken = options.runToken;
     this.child = spawn(process.execPath, ['--import', 'tsx', 'src/cli.ts', 'serve', '--config', configFile, ...args], {
       cwd: REPO_ROOT,
       env,
@@ -174,9 +179,32 @@ export class ServiceProcess {
     return { status: res.status, body, json };
   }
 
-  async post(path: string): Promise<{ status: number; json: unknown }> {
-    const res = await fetch(`${this.url}${path}`, { method: 'POST' });
-    return { status: res.status, json: await res.json() };
+  /** POSTs with the service's run token as bearer token (unless `headers` says otherwise). */
+  async post(path: string, headers: Record<string, string> = {}): Promise<{ status: number; json: unknown; body: string }> {
+    const auth: Record<string, string> = this.runToken !== undefined ? { authorization: `Bearer ${this.runToken}` } : {};
+    const res = await fetch(`${this.url}${path}`, { method: 'POST', headers: { ...auth, ...headers } });
+    const body = await res.text();
+    let json: unknown = undefined;
+    try {
+      json = JSON.parse(body);
+    } catch {
+      /* not JSON */
+    }
+    return { status: res.status, json, body };
+  }
+
+  /**
+   * POST /api/v1/runs...: like post(), but waits while the service answers 409 "a run is in
+   * progress" (the run before may still be publishing its results), at most `limitMs`.
+   */
+  async postRun(path: string, limitMs = 15_000): Promise<{ status: number; json: unknown; body: string }> {
+    const deadline = Date.now() + limitMs;
+    for (;;) {
+      const r = await this.post(path);
+      const busy = r.status === 409 && (r.json as { message?: string } | undefined)?.message === 'a run is in progress';
+      if (!busy || Date.now() >= deadline) return r;
+      await new Promise((resolve) => setTimeout(resolve, 100));
+    }
   }
 
   async metrics(): Promise<Sample[]> {
@@ -240,4 +268,41 @@ export async function stopAllServices(): Promise<void> {
       await s.stop(5000);
     }),
   );
+}
+
+export interface CliResult {
+  code: number | null;
+  stdout: string;
+  stderr: string;
+  /** The JSON log lines among stderr. */
+  logs: LogLine[];
+}
+
+/** Runs the CLI (`node --import tsx src/cli.ts ARGS`) as a child process, without blocking the event loop. */
+export function runCli(args: string[], env: Record<string, string>, limitMs = 120_000): Promise<CliResult> {
+  return new Promise((resolve, reject) => {
+    const child = spawn(process.execPath, ['--import', 'tsx', 'src/cli.ts', ...args], {
+      cwd: REPO_ROOT,
+      env: { PATH: process.env.PATH ?? '/usr/bin:/bin', HOME: process.env.HOME ?? tmpdir(), ...env },
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    let stdout = '';
+    let stderr = '';
+    child.stdout.setEncoding('utf8').on('data', (c: string) => (stdout += c));
+    child.stderr.setEncoding('utf8').on('data', (c: string) => (stderr += c));
+    const timer = setTimeout(() => child.kill('SIGKILL'), limitMs);
+    child.once('error', reject);
+    child.once('exit', (code) => {
+      clearTimeout(timer);
+      const logs: LogLine[] = [];
+      for (const line of stderr.split('\n')) {
+        try {
+          logs.push(JSON.parse(line) as LogLine);
+        } catch {
+          /* not a log line */
+        }
+      }
+      resolve({ code, stdout, stderr, logs });
+    });
+  });
 }

@@ -2,7 +2,9 @@
  * A tiny TCP forwarder for fault tests: 127.0.0.1:<free port> -> a real PostgreSQL server.
  * The test points Plumbline's connection URLs at it and can then take "the database" away
  * (`pause`: new connections are refused, existing ones cut, as when the server stops),
- * bring it back (`resume`), or cut only the open connections (`killAll`).
+ * bring it back (`resume`), cut only the open connections (`killAll`), or make every
+ * connection half-open (`freeze`: nothing is forwarded and nothing is closed, as when the
+ * network path dies silently).
  *
  * Written on node:net because it is a few dozen lines: a forwarder library would add a
  * dependency for less control over pausing.
@@ -20,6 +22,10 @@ export interface TcpProxy {
   resume(): Promise<void>;
   /** Cuts every open connection; new ones are still accepted. Returns how many were cut. */
   killAll(): number;
+  /** Stops forwarding on every connection, open or new, without closing any (half-open). */
+  freeze(): void;
+  /** Forwards new connections again (frozen ones stay frozen: cut them with killAll). */
+  thaw(): void;
   /** Local ports of the proxy's open connections to the server (pg_stat_activity.client_port). */
   upstreamPorts(): number[];
   /** Open client connections. */
@@ -51,8 +57,17 @@ export async function startTcpProxy(target: string | { host: string; port: numbe
     return { host: u.hostname === '' ? '127.0.0.1' : u.hostname, port: u.port === '' ? 5432 : Number(u.port) };
   })() : target;
   const pairs = new Set<Pair>();
+  let frozen = false;
 
   const onConnection = (client: Socket): void => {
+    if (frozen) {
+      // Accepted and never answered.
+      const hold: Pair = { client, upstream: client };
+      pairs.add(hold);
+      client.on('error', () => pairs.delete(hold));
+      client.on('close', () => pairs.delete(hold));
+      return;
+    }
     const upstream = createConnection({ host: to.host, port: to.port });
     const pair: Pair = { client, upstream };
     pairs.add(pair);
@@ -112,6 +127,18 @@ export async function startTcpProxy(target: string | { host: string; port: numbe
       paused = false;
     },
     killAll: cut,
+    freeze(): void {
+      frozen = true;
+      for (const p of pairs) {
+        p.client.unpipe(p.upstream);
+        p.upstream.unpipe(p.client);
+        p.client.pause();
+        p.upstream.pause();
+      }
+    },
+    thaw(): void {
+      frozen = false;
+    },
     upstreamPorts(): number[] {
       return [...pairs].map((p) => p.upstream.localPort).filter((p): p is number => typeof p === 'number');
     },

@@ -48,6 +48,7 @@ describe('defaults', () => {
       table: 'shop.results',
       columns: { snapshotDate: 'snapshot_date', listId: 'list_id', itemId: 'item_id', position: 'position' },
       engine: 'stream',
+      pushdownAssociation: 'sample',
       maxRowsPerDay: 2_000_000,
       maxCategories: 1000,
       maxCategoryLength: 200,
@@ -55,16 +56,19 @@ describe('defaults', () => {
     });
     expect(c.features).toEqual([{ name: 'price', kind: 'numeric', scope: 'item', nullable: true }]);
     expect(c.baseline).toEqual({ window: { type: 'trailing', days: 28 }, sampleSize: 200_000, bins: 10, minDays: 1 });
-    expect(c.alerting).toEqual({ consecutiveRuns: { drift: 2, quality: 1, within_list: 1, dataset: 1 }, immediateMultiple: 3 });
+    expect(c.alerting).toEqual({ consecutiveRuns: { drift: 2, quality: 1, within_list: 1, dataset: 1, ranking: 1, outcome: 2 }, immediateMultiple: 3 });
+    expect(c.outcome).toEqual({ ndcgAt: 10, labelLagDays: 0 });
     expect(c.schedule).toEqual({
       cron: '30 6 * * *',
       timezone: 'UTC',
       lagDays: 1,
       catchUpMaxDays: 7,
       retryBaseSeconds: 15,
+      runTimeoutMinutes: 120,
+      shutdownGraceSeconds: 20,
       readiness: { minRowFraction: 0.5, markerDateColumn: 'snapshot_date', retryEverySeconds: 300, deadlineMinutes: 360 },
     });
-    expect(c.http).toEqual({ host: '127.0.0.1', port: 9467 });
+    expect(c.http).toEqual({ host: '127.0.0.1', port: 9467, statusPage: true, refreshSeconds: 60, manualRuns: { enabled: false } });
     expect(c.store).toEqual({ schema: 'plumbline', retention: { enabled: true, reportDays: 400, dayProfileMinDays: 35, baselinesKept: 3 } });
   });
 
@@ -73,6 +77,7 @@ describe('defaults', () => {
       ...DEFAULT_THRESHOLDS,
       ksAlpha: 0.01,
       psiNoiseQuantile: 0.999,
+      rankingNoiseZ: 3,
       extremeIqrMultiple: 3,
       adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
     });
@@ -89,7 +94,7 @@ describe('defaults', () => {
   it('applies nested defaults inside a partly given section', () => {
     const s = parseConfig({ ...MINIMAL, schedule: { timezone: 'Europe/Berlin', readiness: { deadlineMinutes: 60 } }, alerting: { consecutiveRuns: { drift: 3 } } });
     expect(s.schedule).toMatchObject({ cron: '30 6 * * *', timezone: 'Europe/Berlin', readiness: { minRowFraction: 0.5, deadlineMinutes: 60 } });
-    expect(s.alerting.consecutiveRuns).toEqual({ drift: 3, quality: 1, within_list: 1, dataset: 1 });
+    expect(s.alerting.consecutiveRuns).toEqual({ drift: 3, quality: 1, within_list: 1, dataset: 1, ranking: 1, outcome: 2 });
     expect(parseConfig({ ...MINIMAL, features: [{ name: 'r', withinList: { rule: 'rank' } }] }).features[0]!.withinList).toEqual({ rule: 'rank', tolerance: 1e-6 });
   });
 

@@ -97,10 +97,12 @@ describe('deploy/plumbline.example.yaml', () => {
       ...DEFAULT_THRESHOLDS,
       ksAlpha: 0.01,
       psiNoiseQuantile: 0.999,
+      rankingNoiseZ: 3,
       extremeIqrMultiple: 3,
       adaptive: { enabled: false, quantile: 1, margin: 1.5, criticalMultiple: 2, minDays: 7, floor: { psi: 0.02, ks: 0.03 } },
     });
     expect(ex.alerting).toEqual(def.alerting);
+    expect(ex.outcome).toEqual(def.outcome);
     expect(ex.schedule).toEqual(def.schedule);
     expect(ex.http).toEqual(def.http);
     expect(ex.store).toEqual(def.store);

@@ -351,6 +351,48 @@ describe('faults', () => {
     expect(Math.abs(texts.length / rows.length - 0.05)).toBeLessThan(5 * Math.sqrt((0.05 * 0.95) / rows.length));
   });
 
+  const sortedValues = (l: Row[], name: string): number[] => l.map((r) => r[name] as number).sort((x, y) => x - y);
+
+  it('polarity_flip reverses the order of the values inside each list and keeps each list\'s values', () => {
+    const lists = byList(rowsOf(withFaults({ kind: 'polarity_flip', feature: 'semantic_similarity' })));
+    const cleanLists = byList(clean);
+    lists.forEach((l, k) => {
+      const before = cleanLists[k].map((r) => r.semantic_similarity as number);
+      const after = l.map((r) => r.semantic_similarity as number);
+      expect(sortedValues(l, 'semantic_similarity')).toEqual(sortedValues(cleanLists[k], 'semantic_similarity'));
+      // The largest value goes where the smallest was, and the other way round.
+      expect(after[before.indexOf(Math.max(...before))]).toBe(Math.min(...before));
+      expect(after[before.indexOf(Math.min(...before))]).toBe(Math.max(...before));
+      expect(l.map((r) => ({ ...r, semantic_similarity: 0 }))).toEqual(cleanLists[k].map((r) => ({ ...r, semantic_similarity: 0 })));
+    });
+  });
+
+  it('shuffle_within_lists keeps each list\'s values and moves them between its items', () => {
+    const lists = byList(rowsOf(withFaults({ kind: 'shuffle_within_lists', feature: 'text_match' })));
+    const cleanLists = byList(clean);
+    let moved = 0;
+    lists.forEach((l, k) => {
+      expect(sortedValues(l, 'text_match')).toEqual(sortedValues(cleanLists[k], 'text_match'));
+      if (l.some((r, i) => r.text_match !== cleanLists[k][i].text_match)) moved++;
+    });
+    expect(moved).toBeGreaterThan(0.9 * lists.length);
+  });
+
+  it('order_scrambled serves about amount of the lists in another order, with the same items and values', () => {
+    const lists = byList(rowsOf(withFaults({ kind: 'order_scrambled', amount: 0.3 })));
+    const cleanLists = byList(clean);
+    let scrambled = 0;
+    lists.forEach((l, k) => {
+      const key = (r: Row): string => r.item_id;
+      expect([...l].sort((a, b) => key(a).localeCompare(key(b))).map((r) => ({ ...r, position: 0, clicked: 0 }))).toEqual(
+        [...cleanLists[k]].sort((a, b) => key(a).localeCompare(key(b))).map((r) => ({ ...r, position: 0, clicked: 0 })),
+      );
+      if (l.some((r, i) => r.item_id !== cleanLists[k][i].item_id)) scrambled++;
+    });
+    // Binomial(lists, 0.3), 5 standard errors.
+    expect(Math.abs(scrambled / lists.length - 0.3)).toBeLessThan(5 * Math.sqrt(0.21 / lists.length));
+  });
+
   it('rejects faults that cannot apply', () => {
     const bad: Omit<FaultPlan, 'date'>[] = [
       { kind: 'mean_shift' },
@@ -359,6 +401,8 @@ describe('faults', () => {
       { kind: 'unit_change', feature: 'plant_family' },
       { kind: 'new_category', feature: 'price' },
       { kind: 'flat_within_lists', feature: 'query_length' },
+      { kind: 'polarity_flip', feature: 'query_length' },
+      { kind: 'shuffle_within_lists', feature: 'plant_family' },
     ];
     for (const f of bad) expect(() => rowsOf(withFaults(f)), f.kind).toThrow(RangeError);
     expect(() => rowsOf({ ...BASE, faults: [{ date: DAY, untilDate: addDays(DAY, -1), kind: 'list_truncation' }] })).toThrow(/untilDate/);
@@ -367,18 +411,18 @@ describe('faults', () => {
 });
 
 describe('the demo story', () => {
-  it('keeps 28 clean days before the first fault, and every fault inside the five weeks', () => {
+  it('keeps 28 clean days before the first fault, and every fault inside the five weeks and a day', () => {
     const dates = scenarioDates(DEMO_SCENARIO);
-    expect(dates).toHaveLength(35);
+    expect(dates).toHaveLength(36);
     const first = DEMO_FAULTS.map((f) => f.date).sort()[0];
     expect(first).toBe(addDays(DEMO_SCENARIO.startDate, 28));
     for (const f of DEMO_FAULTS) expect(dates).toContain(f.untilDate ?? f.date);
     for (const d of dates.slice(0, 28)) expect(faultsOn(DEMO_SCENARIO, d)).toEqual([]);
   });
 
-  it('covers the eight breaks the README tells, on valid features', () => {
+  it('covers the nine breaks the README tells, on valid features', () => {
     expect(new Set(DEMO_FAULTS.map((f) => f.kind))).toEqual(
-      new Set(['mean_shift', 'unit_change', 'null_spike', 'minmax_raw', 'flat_within_lists', 'list_truncation', 'new_category', 'creeping_drift']),
+      new Set(['mean_shift', 'unit_change', 'null_spike', 'minmax_raw', 'flat_within_lists', 'list_truncation', 'new_category', 'creeping_drift', 'polarity_flip']),
     );
     // Generating a small version of each fault day runs the fault validation.
     const small = { ...DEMO_SCENARIO, listsPerDay: 5 };

@@ -6,7 +6,7 @@ import { request as httpRequest, Agent } from 'node:http';
 import { createServer } from 'node:net';
 import { afterEach, describe, expect, it } from 'vitest';
 import { ConfigError } from '../../../src/errors.ts';
-import { PlumblineMetrics, isSnapshotDate, preferredFormat, startHttpServer, type HttpDeps, type RunningHttpServer } from '../../../src/exporter/index.ts';
+import { PlumblineMetrics, hostAllowed, isSnapshotDate, tokenMatches, preferredFormat, startHttpServer, type HttpDeps, type RunningHttpServer } from '../../../src/exporter/index.ts';
 import type { Report } from '../../../src/report/contract.ts';
 import { sampleReport } from './fixtures.ts';
 
@@ -208,34 +208,71 @@ describe('startHttpServer', () => {
   it('starts manual runs: 202 accepted, 409 busy, 400 bad date, 405 wrong method, 403 cross-origin', async () => {
     const calls: (string | null)[] = [];
     let busy = false;
+    const token = 'unit-test-token-0123456789';
     const s = await serve(
       baseDeps({
+        runToken: token,
         trigger: async (date) => {
           calls.push(date);
           return busy ? { accepted: false, message: 'a run is in progress' } : { accepted: true, message: `run for ${date ?? 'the scheduled date'} started` };
         },
       }),
     );
-    const ok = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST' });
+    const auth = { authorization: `Bearer ${token}` };
+    const ok = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: auth });
     expect(ok.status).toBe(202);
     expect(JSON.parse(ok.body)).toEqual({ accepted: true, message: 'run for 2031-05-14 started' });
-    const noDate = await call(`${s.url}/api/v1/runs`, { method: 'POST' });
+    const noDate = await call(`${s.url}/api/v1/runs`, { method: 'POST', headers: auth });
     expect(noDate.status).toBe(202);
     busy = true;
-    const conflict = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST' });
+    const conflict = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: auth });
     expect(conflict.status).toBe(409);
     expect(JSON.parse(conflict.body)).toEqual({ accepted: false, message: 'a run is in progress' });
-    const bad = await call(`${s.url}/api/v1/runs?date=yesterday`, { method: 'POST' });
+    const bad = await call(`${s.url}/api/v1/runs?date=yesterday`, { method: 'POST', headers: auth });
     expect(bad.status).toBe(400);
-    const get = await call(`${s.url}/api/v1/runs?date=2031-05-14`);
+    const get = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { headers: auth });
     expect(get.status).toBe(405);
     expect(get.headers.allow).toBe('POST');
-    const cross = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { origin: 'http://elsewhere.example' } });
+    const cross = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { ...auth, origin: 'http://elsewhere.example' } });
     expect(cross.status).toBe(403);
-    const sameOrigin = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { origin: s.url } });
+    const sameOrigin = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { ...auth, origin: s.url } });
     expect(sameOrigin.status).toBe(409);
-    // Only the accepted-format, same-origin POSTs reached the trigger.
+    // Only the accepted-format, same-origin, authorised POSTs reached the trigger.
     expect(calls).toEqual(['2031-05-14', null, '2031-05-14', '2031-05-14']);
+  });
+
+  it('refuses a manual run without the right bearer token (401) and from a host name it does not serve (421)', async () => {
+    const calls: (string | null)[] = [];
+    const token = 'unit-test-token-0123456789';
+    const s = await serve(baseDeps({ runToken: token, trigger: async (date) => (calls.push(date), { accepted: true, message: 'ok' }) }));
+    const missing = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST' });
+    expect(missing.status).toBe(401);
+    expect(missing.headers['www-authenticate']).toBe('Bearer realm="plumbline"');
+    expect(missing.body).not.toContain(token);
+    for (const wrong of [`Bearer ${token}x`, `Bearer ${token.slice(0, -1)}`, token, 'Bearer ', `Basic ${token}`]) {
+      expect((await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { authorization: wrong } })).status, wrong).toBe(401);
+    }
+    // A page on a rebinding domain reaches this address with its own name in Host.
+    const rebound = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { authorization: `Bearer ${token}`, host: `attacker.example:${s.port}` } });
+    expect(rebound.status).toBe(421);
+    const otherPort = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { authorization: `Bearer ${token}`, host: `127.0.0.1:${s.port + 1}` } });
+    expect(otherPort.status).toBe(421);
+    const localhost = await call(`${s.url}/api/v1/runs?date=2031-05-14`, { method: 'POST', headers: { authorization: `Bearer ${token}`, host: `localhost:${s.port}` } });
+    expect(localhost.status).toBe(202);
+    // Reads stay open (Prometheus scrapes by address).
+    expect((await call(`${s.url}/healthz`, { headers: { host: 'attacker.example' } })).status).toBe(200);
+    expect(calls).toEqual(['2031-05-14']);
+  });
+
+  it('matches Host headers against configured names, with or without a port', () => {
+    expect(hostAllowed('plumbline.example.internal:9467', ['plumbline.example.internal'])).toBe(true);
+    expect(hostAllowed('PLUMBLINE.example.internal', ['plumbline.example.internal'])).toBe(true);
+    expect(hostAllowed('plumbline.example.internal:9467', ['plumbline.example.internal:9468'])).toBe(false);
+    expect(hostAllowed('[::1]:9467', ['[::1]'])).toBe(true);
+    expect(hostAllowed(undefined, ['localhost'])).toBe(false);
+    expect(tokenMatches('Bearer abc', 'abc')).toBe(true);
+    expect(tokenMatches('bearer  abc ', 'abc')).toBe(true);
+    expect(tokenMatches(undefined, 'abc')).toBe(false);
   });
 
   it('hands every other GET to the page handler, and 404s without one', async () => {

@@ -19,6 +19,7 @@ const HEALTH: MonitorHealth = {
   lastOutcome: 'success',
   successes: 10,
   failures: 2,
+  interrupted: 1,
   sourceUp: true,
   storeUp: true,
   leader: true,
@@ -196,6 +197,14 @@ plumbline_runs_total 13
 # TYPE plumbline_run_failures_total counter
 plumbline_run_failures_total 2
 
+# HELP plumbline_run_interruptions_total Runs stopped by a shutdown before they finished (not failures), over the store's history.
+# TYPE plumbline_run_interruptions_total counter
+plumbline_run_interruptions_total 1
+
+# HELP plumbline_unhandled_rejections_total Promise rejections nothing handled in this process (a bug; each is logged).
+# TYPE plumbline_unhandled_rejections_total counter
+plumbline_unhandled_rejections_total 0
+
 # HELP plumbline_source_up Whether the source database answered the latest probe (1) or not (0).
 # TYPE plumbline_source_up gauge
 plumbline_source_up 1
@@ -301,7 +310,34 @@ describe('PlumblineMetrics report gauges', () => {
     m.showReport(sampleReport());
     m.showReport(null);
     const body = (await m.render()).body;
-    expect(samples(body)).toEqual(['plumbline_runs_total 0', 'plumbline_run_failures_total 0', 'plumbline_leader 0', 'plumbline_build_info{version="0.1.0"} 1']);
+    expect(samples(body)).toEqual([
+      'plumbline_runs_total 0',
+      'plumbline_run_failures_total 0',
+      'plumbline_run_interruptions_total 0',
+      'plumbline_unhandled_rejections_total 0',
+      'plumbline_leader 0',
+      'plumbline_build_info{version="0.1.0"} 1',
+    ]);
+  });
+
+  it('counts an interrupted run apart: neither a run nor a failure, and the last-run gauges keep the newest verdict', async () => {
+    const m = quiet();
+    m.recordRun({ ok: true, startedAt: '2031-05-14T06:30:00Z', finishedAt: '2031-05-14T06:31:00Z' });
+    m.recordRun({ ok: false, interrupted: true, startedAt: '2031-05-15T06:30:00Z', finishedAt: '2031-05-15T06:30:20Z' });
+    const body = (await m.render()).body;
+    expect(samples(body)).toEqual(expect.arrayContaining([
+      'plumbline_runs_total 1',
+      'plumbline_run_failures_total 0',
+      'plumbline_run_interruptions_total 1',
+      'plumbline_last_run_success 1',
+      `plumbline_last_run_timestamp_seconds ${Date.parse('2031-05-14T06:31:00Z') / 1000}`,
+    ]));
+    // The store's totals later: counters only rise to them.
+    m.restoreHealth({ ...HEALTH, interrupted: 3 });
+    m.setUnhandledRejections(2);
+    m.setUnhandledRejections(1);
+    const after = samples((await m.render()).body);
+    expect(after).toEqual(expect.arrayContaining(['plumbline_run_interruptions_total 3', 'plumbline_unhandled_rejections_total 2']));
   });
 
   it('keeps the newest snapshot date with data when a later run found the snapshot missing', async () => {

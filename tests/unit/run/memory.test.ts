@@ -23,10 +23,10 @@ function quantity(q: string): number {
 
 describe('memoryEstimate', () => {
   it('follows the stated formula', () => {
-    // 160 MiB + 1,000,000 x (16 x 50 + 32) + 8 x 200,000 x 50, worked by hand:
-    // 167,772,160 + 832,000,000 + 80,000,000 = 1,079,772,160 bytes.
+    // 160 MiB + 1,000,000 x (16 x 50 + 72) + 8 x 200,000 x 50, worked by hand:
+    // 167,772,160 + 872,000,000 + 80,000,000 = 1,119,772,160 bytes.
     const c = parseConfig({ source: { table: 't', maxRowsPerDay: 1_000_000 }, features: features(50) });
-    expect(memoryEstimate(c)).toEqual({ rows: 1_000_000, features: 50, bytes: 1_079_772_160 });
+    expect(memoryEstimate(c)).toEqual({ rows: 1_000_000, features: 50, bytes: 1_119_772_160 });
     expect(MEMORY_BASE_BYTES).toBe(167_772_160);
   });
 
@@ -41,7 +41,7 @@ describe('memoryEstimate', () => {
   it('counts only the day sample for the pushdown engine', () => {
     // daySampleCap = max(2000, ceil(2 x 200,000 / 28)) = 14,286 rows.
     const c = parseConfig({ source: { table: 't', engine: 'pushdown', maxRowsPerDay: 50_000_000 }, features: features(10) });
-    expect(memoryEstimate(c)).toEqual({ rows: 14_286, features: 10, bytes: 167_772_160 + 14_286 * 192 + 8 * 200_000 * 10 });
+    expect(memoryEstimate(c)).toEqual({ rows: 14_286, features: 10, bytes: 167_772_160 + 14_286 * 232 + 8 * 200_000 * 10 });
   });
 });
 

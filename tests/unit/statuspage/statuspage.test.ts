@@ -455,6 +455,60 @@ describe('size', () => {
   });
 });
 
+describe('ranking findings on the status page', () => {
+  const day = report('2031-05-11', [
+    finding({
+      feature: 'title_match',
+      check: 'position_rank_correlation',
+      value: 0.773,
+      score: 1.543,
+      status: 'critical',
+      thresholds: { type: 'above', warn: 0.1, critical: 0.2 },
+      summary: 'mean within-list rank correlation with the position 0.773 (baseline -0.77, change +1.543)',
+      evidence: { baseline: -0.77, current: 0.773, change: 1.543, noise: 0.0064, z: 242.6, lists: 6102, oppositeSignShare: 1, baselineOppositeSignShare: 0.001 },
+    }),
+    finding({ feature: 'title_match', check: 'psi', value: 0.001, status: 'ok' }),
+    finding({
+      feature: null,
+      check: 'mean_reciprocal_rank',
+      value: 0.536,
+      score: 0.112,
+      status: 'warn',
+      thresholds: { type: 'above', warn: 0.03, critical: 0.06 },
+      summary: 'mean reciprocal rank of the first positive of 2031-05-11 0.536 (baseline 0.648)',
+      evidence: { baseline: 0.648, current: 0.536, outcomeDate: '2031-05-11', lists: 5120 },
+    }),
+    finding({
+      feature: null,
+      check: 'positive_position_psi',
+      value: 0.062,
+      status: 'critical',
+      thresholds: { type: 'above', warn: 0.02, critical: 0.05 },
+      evidence: { baseline: 0.305, current: 0.245, bins: [{ bin: 'rank 1', baselineShare: 0.305, currentShare: 0.245, contribution: 0.013 }] },
+    }),
+  ]);
+
+  it('shows the association in the feature grid and on the feature page, judged by a change either way', async () => {
+    const deps = fake([day]).deps;
+    const overview = await get(deps, '/');
+    const g = grid(overview.body);
+    expect(g.header).toContain('order association');
+    expect(g.rows.find((r) => r[0] === 'title_match')!.join(' | ')).toContain('critical 0.773');
+    const page = stripTags((await get(deps, '/feature/title_match')).body);
+    expect(page).toContain('order association position_rank_correlation');
+    expect(page).toContain('warn at a change of ±0.1, critical at ±0.2 from the baseline, once beyond its noise');
+    expect(page).toContain('lists against the baseline’s sign 1');
+    expect(page).toContain('change / noise 243');
+  });
+
+  it('lists the outcomes with the whole-day checks: MRR in numbers, the click curve by served rank', async () => {
+    const body = stripTags((await get(fake([day]).deps, '/')).body);
+    expect(body).toContain('MRR mean_reciprocal_rank ▲ warn 0.536 0.648 0.536');
+    expect(body).toContain('click curve PSI positive_position_psi ✖ critical 0.062 30.5% 24.5%');
+    expect(body).toContain('Ranks whose share of positives moved most Served rank');
+  });
+});
+
 describe('learned thresholds and first-run alerts', () => {
   const date = '2031-05-10';
   const learnedKs = finding({
