@@ -6,39 +6,24 @@
  * which would add a process of its own), so npm's child is the service itself.
  */
 import { spawn } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
-import { tmpdir } from 'node:os';
-import { dirname, join } from 'node:path';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { createBigDay, type BigDay } from '../support/big-day.ts';
+import { writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import { describe, expect, it } from 'vitest';
+import { useBigDay } from '../support/big-day.ts';
 import { testDatabaseUrl } from '../support/pg.ts';
 import { REPO_ROOT } from '../support/service.ts';
-import { freePort, until } from '../support/tools.ts';
+import { cleanEnv, freePort, listenOnce, until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 
 describe.skipIf(url === undefined)('npm run plumbline -- serve (needs PLUMBLINE_TEST_DATABASE_URL)', () => {
-  let day: BigDay;
-  let dir: string;
-  beforeAll(async () => {
-    day = await createBigDay(url!, 'npmstop');
-    dir = mkdtempSync(join(tmpdir(), 'plumbline-npm-stop-'));
-  });
-  afterAll(async () => {
-    await day?.drop();
-    if (dir !== undefined) rmSync(dir, { recursive: true, force: true });
-  });
+  const big = useBigDay(url!, 'npmstop');
 
   it('stops the service within seconds of SIGTERM to npm and releases the port', async () => {
     const port = await freePort();
-    const config = join(dir, 'plumbline.yaml');
-    writeFileSync(config, JSON.stringify({ ...day.config, http: { port } }));
-    const env: Record<string, string> = {};
-    for (const [k, v] of Object.entries(process.env)) if (v !== undefined && !/^npm_/i.test(k) && !k.startsWith('PLUMBLINE_')) env[k] = v;
-    env['PATH'] = `${dirname(process.execPath)}:${env['PATH'] ?? '/usr/bin:/bin'}`;
-    env['PLUMBLINE_SOURCE_URL'] = url!;
-    env['npm_config_update_notifier'] = 'false';
+    const config = join(big.dir, 'plumbline.yaml');
+    writeFileSync(config, JSON.stringify({ ...big.day.config, http: { port } }));
+    const env = cleanEnv({ PLUMBLINE_SOURCE_URL: url! });
     const npm = spawn('npm', ['run', '--silent', 'plumbline', '--', 'serve', '--config', config], { cwd: REPO_ROOT, env, stdio: ['ignore', 'ignore', 'pipe'] });
     let stderr = '';
     npm.stderr!.setEncoding('utf8').on('data', (c: string) => (stderr += c));
@@ -57,11 +42,7 @@ describe.skipIf(url === undefined)('npm run plumbline -- serve (needs PLUMBLINE_
       expect(stderr).toContain('"msg":"stopped"');
       // Nothing answers on the port any more, and this process can listen on it.
       await until('the port to be released', 15_000, async () => ((await healthy()) ? undefined : true));
-      await new Promise<void>((resolve, reject) => {
-        const srv = createServer();
-        srv.once('error', reject);
-        srv.listen(port, '127.0.0.1', () => srv.close(() => resolve()));
-      });
+      await listenOnce(port);
     } finally {
       if (npm.exitCode === null && npm.signalCode === null) npm.kill('SIGKILL');
     }

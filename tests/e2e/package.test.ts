@@ -10,28 +10,18 @@
  */
 import { spawn, spawnSync, type SpawnSyncReturns } from 'node:child_process';
 import { existsSync, lstatSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
-import { dirname, join } from 'node:path';
+import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { loadConfigFile } from '../../src/config/index.ts';
 import { memoryEstimate } from '../../src/run/index.ts';
 import { createBigDay, type BigDay } from '../support/big-day.ts';
 import { testDatabaseUrl } from '../support/pg.ts';
 import { REPO_ROOT } from '../support/service.ts';
-import { freePort, until } from '../support/tools.ts';
+import { cleanEnv, freePort, listenOnce, until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 const pkg = JSON.parse(readFileSync(join(REPO_ROOT, 'package.json'), 'utf8')) as { version: string; dependencies: Record<string, string> };
-
-/** The caller's environment without npm's lifecycle variables (npm test sets npm_config_*), plus `extra`. */
-function cleanEnv(extra: Record<string, string> = {}): Record<string, string> {
-  const env: Record<string, string> = {};
-  for (const [k, v] of Object.entries(process.env)) if (v !== undefined && !/^npm_/i.test(k) && !k.startsWith('PLUMBLINE_')) env[k] = v;
-  // `#!/usr/bin/env node` in the bin finds this Node first.
-  env['PATH'] = `${dirname(process.execPath)}:${env['PATH'] ?? '/usr/bin:/bin'}`;
-  return { ...env, npm_config_update_notifier: 'false', ...extra };
-}
 
 function npm(args: string[], cwd: string): SpawnSyncReturns<string> {
   const r = spawnSync('npm', args, { cwd, env: cleanEnv(), encoding: 'utf8', timeout: 300_000 });
@@ -147,11 +137,7 @@ describe('the packed and installed package', () => {
         expect(Date.now() - t0).toBeLessThan(15_000);
         expect(stderr).toContain('"msg":"stopped"');
         // The port is free again: this process can listen on it.
-        await new Promise<void>((resolve, reject) => {
-          const srv = createServer();
-          srv.once('error', reject);
-          srv.listen(port, '127.0.0.1', () => srv.close(() => resolve()));
-        });
+        await listenOnce(port);
       } finally {
         if (child.exitCode === null && child.signalCode === null) child.kill('SIGKILL');
       }

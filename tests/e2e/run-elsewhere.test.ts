@@ -6,30 +6,22 @@
  * directory (regression: "Cannot find package 'tsx' imported from /tmp/[worker eval]").
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
-import { availableParallelism, tmpdir } from 'node:os';
+import { writeFileSync } from 'node:fs';
+import { availableParallelism } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { PARALLEL_MIN_ROWS } from '../../src/profile/index.ts';
-import { createBigDay, type BigDay } from '../support/big-day.ts';
+import { useBigDay } from '../support/big-day.ts';
 import { testDatabaseUrl } from '../support/pg.ts';
 import { REPO_ROOT } from '../support/service.ts';
 
 const url = testDatabaseUrl();
 
 describe.skipIf(url === undefined)('a run from another folder (needs PLUMBLINE_TEST_DATABASE_URL)', () => {
-  let day: BigDay;
-  let dir: string;
-  beforeAll(async () => {
-    day = await createBigDay(url!, 'elsewhere');
-    dir = mkdtempSync(join(tmpdir(), 'plumbline-elsewhere-'));
-  });
-  afterAll(async () => {
-    await day?.drop();
-    if (dir !== undefined) rmSync(dir, { recursive: true, force: true });
-  });
+  const big = useBigDay(url!, 'elsewhere');
 
   it('profiles a day over the worker threshold with worker threads', () => {
+    const { day, dir } = big;
     // Workers start only with two threads or more; CI machines have them.
     expect(availableParallelism()).toBeGreaterThan(1);
     expect(day.bigRows).toBeGreaterThanOrEqual(PARALLEL_MIN_ROWS);

@@ -12,51 +12,35 @@ import { request as httpRequest } from 'node:http';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import pg from 'pg';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { loadScenario } from '../../demo-data/load.ts';
 import { addDays } from '../../demo-data/scenario.ts';
-import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { testDatabaseUrl } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { runCli, runServeExpectingExit, startService, stopAllServices, withApplicationName } from '../support/service.ts';
+import { runCli, runServeExpectingExit, startService, withApplicationName } from '../support/service.ts';
+import { serviceSuite, testSchedule, yesterdayUtc as yesterday } from '../support/service-suite.ts';
 import { until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 const svcUrl = url === undefined ? '' : withApplicationName(url, 'plumbline-e2e-replicas');
 const BASELINE_DAYS = 7;
 const RUN_TOKEN = 'replicas-run-token-5f2c9a7d41';
-const yesterday = (): string => addDays(new Date().toISOString().slice(0, 10), -1);
 
 describe.skipIf(url === undefined)(`two serve replicas on one store${url === undefined ? ' (skipped: PLUMBLINE_TEST_DATABASE_URL is not set)' : ''}`, () => {
-  let admin: pg.Client;
-  const schemas: string[] = [];
-
-  beforeAll(async () => {
-    admin = new pg.Client({ connectionString: url, application_name: 'plumbline-e2e-admin' });
-    await admin.connect();
-  });
-
-  afterAll(async () => {
-    await stopAllServices();
-    if (admin !== undefined) {
-      for (const s of schemas) await admin.query(`DROP SCHEMA IF EXISTS "${s}" CASCADE`);
-      await admin.end();
-    }
-  });
+  const suite = serviceSuite(url);
 
   it('every replica exports a run within seconds of its commit, whoever stored it; manual runs are guarded', async () => {
     const day = yesterday();
-    const src = uniqueSchema('rep_src');
-    const store = uniqueSchema('rep_store');
-    schemas.push(src, store);
+    const src = suite.schema('rep_src');
+    const store = suite.schema('rep_store');
     const table = `${src}.impressions`;
     // BASELINE_DAYS + 2 days: the catch-up evaluates `day`; the CLI later runs the day before.
-    await loadScenario(admin, { table, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS - 1), days: BASELINE_DAYS + 2, listsPerDay: 100, meanListSize: 10, seed: 5150, faults: [] } });
+    await loadScenario(suite.admin, { table, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS - 1), days: BASELINE_DAYS + 2, listsPerDay: 100, meanListSize: 10, seed: 5150, faults: [] } });
     const config = scenarioConfig(table, {
       storeSchema: store,
       overrides: {
         baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
-        schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 0, retryBaseSeconds: 1 },
+        schedule: testSchedule(),
         // The periodic fallback is long, so a change within seconds can only come from NOTIFY.
         http: { host: '127.0.0.1', port: 0, manualRuns: { enabled: true }, refreshSeconds: 3600 },
       },
@@ -120,14 +104,14 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
     expect(onFollower.status).toBe(409);
     expect((onFollower.json as { message: string }).message).toContain('another replica holds the leader lock');
     // None of these stored anything: still three runs, and nothing after `day`.
-    const rows = (await admin.query<{ n: number; newest: string }>(`SELECT count(*)::int AS n, max(run_date)::text AS newest FROM "${store}".runs`)).rows[0]!;
+    const rows = (await suite.admin.query<{ n: number; newest: string }>(`SELECT count(*)::int AS n, max(run_date)::text AS newest FROM "${store}".runs`)).rows[0]!;
     expect(rows).toEqual({ n: 3, newest: day });
 
     // The CLI refuses a future date too (exit 2, naming the date), and stores nothing.
     const cliFuture = await cliWithConfig(config, future);
     expect(cliFuture.result.code).toBe(2);
     expect(cliFuture.result.stderr).toContain(`${future} is after ${day}`);
-    expect((await admin.query<{ n: number }>(`SELECT count(*)::int AS n FROM "${store}".runs`)).rows[0]!.n).toBe(3);
+    expect((await suite.admin.query<{ n: number }>(`SELECT count(*)::int AS n FROM "${store}".runs`)).rows[0]!.n).toBe(3);
 
     expect(await b.stop()).toEqual({ code: 0, signal: null });
     expect(await a.stop()).toEqual({ code: 0, signal: null });
@@ -135,16 +119,15 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
 
   it('a run stored for a future date (an older version, a manual SQL insert) is never "latest", and catch-up goes on', async () => {
     const day = yesterday();
-    const src = uniqueSchema('rep_fut_src');
-    const store = uniqueSchema('rep_fut_store');
-    schemas.push(src, store);
+    const src = suite.schema('rep_fut_src');
+    const store = suite.schema('rep_fut_store');
     const table = `${src}.impressions`;
-    await loadScenario(admin, { table, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS), days: BASELINE_DAYS + 1, listsPerDay: 100, meanListSize: 10, seed: 99, faults: [] } });
+    await loadScenario(suite.admin, { table, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS), days: BASELINE_DAYS + 1, listsPerDay: 100, meanListSize: 10, seed: 99, faults: [] } });
     const config = scenarioConfig(table, {
       storeSchema: store,
       overrides: {
         baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
-        schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 3, retryBaseSeconds: 1 },
+        schedule: testSchedule({ catchUpMaxDays: 3 }),
         http: { host: '127.0.0.1', port: 0 },
       },
     });
@@ -153,7 +136,7 @@ describe.skipIf(url === undefined)(`two serve replicas on one store${url === und
     expect(cliMigrate.result.code, cliMigrate.result.stderr).toBe(0);
     const future = addDays(day, 40);
     const bogus = { schemaVersion: 1, runDate: future, status: 'critical', findings: [], baseline: {}, current: { rows: 0 } };
-    await admin.query(
+    await suite.admin.query(
       `INSERT INTO "${store}".runs (run_date, started_at, finished_at, outcome, status, config_fingerprint, duration_seconds, report) VALUES ($1, now(), now(), 'success', 'critical', 'old', 0, $2::jsonb)`,
       [future, JSON.stringify(bogus)],
     );

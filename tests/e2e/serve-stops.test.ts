@@ -10,53 +10,33 @@
  * pg_sleep, a statement made long on purpose; other statements (counts, catalogue reads)
  * pass at once.
  */
-import pg from 'pg';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { loadScenario } from '../../demo-data/load.ts';
 import { addDays } from '../../demo-data/scenario.ts';
-import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { testDatabaseUrl } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { startService, stopAllServices, withApplicationName, type ServiceProcess } from '../support/service.ts';
-import { startTcpProxy, type TcpProxy } from '../support/tcp-proxy.ts';
+import { startService, withApplicationName, type ServiceProcess } from '../support/service.ts';
+import { serviceSuite, testSchedule, yesterdayUtc as yesterday } from '../support/service-suite.ts';
 import { until } from '../support/tools.ts';
 
 const url = testDatabaseUrl();
 const BASELINE_DAYS = 5;
-const yesterday = (): string => addDays(new Date().toISOString().slice(0, 10), -1);
 /** application_name of this run's services: unique, so a backend left sleeping by an earlier run never matches. */
 const RUN_ID = `${process.pid}-${Date.now().toString(36)}`;
 const appName = (what: string): string => `plumbline-e2e-${what}-${RUN_ID}`;
 
 describe.skipIf(url === undefined)(`serve with a long statement in flight${url === undefined ? ' (skipped: PLUMBLINE_TEST_DATABASE_URL is not set)' : ''}`, () => {
-  let admin: pg.Client;
-  const schemas: string[] = [];
-  const proxies: TcpProxy[] = [];
-
-  beforeAll(async () => {
-    admin = new pg.Client({ connectionString: url, application_name: 'plumbline-e2e-admin' });
-    await admin.connect();
-  });
-
-  afterAll(async () => {
-    await stopAllServices();
-    await Promise.all(proxies.map((p) => p.close()));
-    if (admin !== undefined) {
-      // Statements still sleeping in the gate (a cut connection is noticed only when they write) hold locks DROP SCHEMA needs.
-      await admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name LIKE $1`, [`%-${RUN_ID}`]);
-      for (const s of schemas) await admin.query(`DROP SCHEMA IF EXISTS "${s}" CASCADE`);
-      await admin.end();
-    }
-  });
+  // Statements still sleeping in the gate (a cut connection is noticed only when they write) are terminated before the schemas are dropped.
+  const suite = serviceSuite(url, { terminateLike: `%-${RUN_ID}` });
 
   /** The scenario behind a gated view; returns the view's name and a switch for the gate. */
   async function gatedSource(prefix: string, day: string): Promise<{ view: string; store: string; gate: (seconds: number) => Promise<void> }> {
-    const src = uniqueSchema(`${prefix}_src`);
-    const store = uniqueSchema(`${prefix}_store`);
-    schemas.push(src, store);
-    await loadScenario(admin, { table: `${src}.impressions`, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS), days: BASELINE_DAYS + 1, listsPerDay: 60, meanListSize: 8, seed: 31, faults: [] } });
-    await admin.query(`CREATE TABLE "${src}".gate (sleep_seconds float8 NOT NULL)`);
-    await admin.query(`INSERT INTO "${src}".gate VALUES (0)`);
-    await admin.query(`
+        const src = suite.schema(`${prefix}_src`);
+    const store = suite.schema(`${prefix}_store`);
+    await loadScenario(suite.admin, { table: `${src}.impressions`, layout: 'wide', scenario: { startDate: addDays(day, -BASELINE_DAYS), days: BASELINE_DAYS + 1, listsPerDay: 60, meanListSize: 8, seed: 31, faults: [] } });
+    await suite.admin.query(`CREATE TABLE "${src}".gate (sleep_seconds float8 NOT NULL)`);
+    await suite.admin.query(`INSERT INTO "${src}".gate VALUES (0)`);
+    await suite.admin.query(`
       CREATE FUNCTION "${src}".gate_pass() RETURNS boolean LANGUAGE plpgsql VOLATILE AS $$
       DECLARE s float8;
       BEGIN
@@ -64,16 +44,16 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
         IF s > 0 AND current_query() ILIKE 'copy%' THEN PERFORM pg_sleep(s); END IF;
         RETURN true;
       END $$`);
-    await admin.query(`CREATE VIEW "${src}".impressions_gated AS SELECT * FROM "${src}".impressions WHERE "${src}".gate_pass()`);
-    return { view: `${src}.impressions_gated`, store, gate: async (seconds) => void (await admin.query(`UPDATE "${src}".gate SET sleep_seconds = $1`, [seconds])) };
+    await suite.admin.query(`CREATE VIEW "${src}".impressions_gated AS SELECT * FROM "${src}".impressions WHERE "${src}".gate_pass()`);
+    return { view: `${src}.impressions_gated`, store, gate: async (seconds) => void (await suite.admin.query(`UPDATE "${src}".gate SET sleep_seconds = $1`, [seconds])) };
   }
 
-  function config(view: string, store: string, schedule: Record<string, unknown> = {}): unknown {
+  function config(view: string, store: string, schedule: Parameters<typeof testSchedule>[0] = {}): unknown {
     return scenarioConfig(view, {
       storeSchema: store,
       overrides: {
         baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
-        schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 0, retryBaseSeconds: 1, ...schedule },
+        schedule: testSchedule(schedule),
         http: { host: '127.0.0.1', port: 0 },
       },
     });
@@ -82,13 +62,13 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
   /** Waits until a COPY of this service's source sleeps in the gate. */
   async function sleepingCopy(appName: string): Promise<void> {
     await until('a COPY sleeping in the gate', 30_000, async () => {
-      const r = await admin.query(`SELECT 1 FROM pg_stat_activity WHERE application_name = $1 AND state = 'active' AND query ILIKE 'copy%' AND wait_event = 'PgSleep'`, [appName]);
+      const r = await suite.admin.query(`SELECT 1 FROM pg_stat_activity WHERE application_name = $1 AND state = 'active' AND query ILIKE 'copy%' AND wait_event = 'PgSleep'`, [appName]);
       return (r.rowCount ?? 0) > 0 ? true : undefined;
     }, 100);
   }
 
   async function runsOf(store: string): Promise<{ outcome: string; error: string | null }[]> {
-    return (await admin.query<{ outcome: string; error: string | null }>(`SELECT outcome, error FROM "${store}".runs ORDER BY id`)).rows;
+    return (await suite.admin.query<{ outcome: string; error: string | null }>(`SELECT outcome, error FROM "${store}".runs ORDER BY id`)).rows;
   }
 
   it('SIGTERM during a long statement: the statement is cancelled, the process exits within the grace, the run is recorded interrupted', async () => {
@@ -96,21 +76,21 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     const { view, store, gate } = await gatedSource('stop_term', day);
     await gate(600);
     const app = appName('stop-term');
-    const svc = await startService({ config: config(view, store, { shutdownGraceSeconds: 6 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
+    const svc = await startService({ config: config(view, store, { shutdownGraceSeconds: 2 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
     await sleepingCopy(app);
     const sent = Date.now();
     const exit = await svc.stop(30_000);
     const stoppedAfterMs = Date.now() - sent;
     expect(exit).toEqual({ code: 0, signal: null });
-    // Within the 6 s grace (plus process start-up of nothing: the timer starts at SIGTERM).
+    // Within the 2 s grace (plus process start-up of nothing: the timer starts at SIGTERM).
     expect(svc.logs.some((l) => l.msg === 'aborting the run in progress')).toBe(true);
     expect(svc.logs.some((l) => l.msg === 'run interrupted' && l['runDate'] === day)).toBe(true);
     expect(svc.logs.some((l) => l.msg === 'run failed')).toBe(false);
     expect(await runsOf(store)).toEqual([{ outcome: 'interrupted', error: 'the service is shutting down' }]);
     // The sleeping statement is gone from the server (cancelled, not left to statement_timeout).
-    const left = await admin.query(`SELECT 1 FROM pg_stat_activity WHERE application_name = $1 AND state = 'active'`, [app]);
+    const left = await suite.admin.query(`SELECT 1 FROM pg_stat_activity WHERE application_name = $1 AND state = 'active'`, [app]);
     expect(left.rowCount).toBe(0);
-    console.log(`[serve-stops] SIGTERM with a COPY sleeping in pg_sleep(600): exited after ${stoppedAfterMs} ms (grace 6 s)`);
+    console.log(`[serve-stops] SIGTERM with a COPY sleeping in pg_sleep(600): exited after ${stoppedAfterMs} ms (grace 2 s)`);
 
     // A restart exports the interruption as such, not as a failure that pages.
     await gate(0);
@@ -150,8 +130,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     const day = yesterday();
     const { view, store, gate } = await gatedSource('stop_halfopen', day);
     await gate(600);
-    const proxy = await startTcpProxy(url!);
-    proxies.push(proxy);
+    const proxy = await suite.proxy();
     const app = appName('stop-halfopen');
     // The source goes through the proxy; the store does not (so the failure can be recorded).
     const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: proxy.rewrite(withApplicationName(url!, app)), storeUrl: url! });
@@ -170,7 +149,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     await gate(0);
     proxy.killAll();
     proxy.thaw();
-    await admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name = $1 AND state = 'active'`, [app]);
+    await suite.admin.query(`SELECT pg_terminate_backend(pid) FROM pg_stat_activity WHERE application_name = $1 AND state = 'active'`, [app]);
     await svc.waitForLog('a retry to store the day', (l) => l.msg === 'run completed' && l['runDate'] === day, 90_000, from);
     expect((await runsOf(store)).at(-1)!.outcome).toBe('success');
     expect(await svc.stop()).toEqual({ code: 0, signal: null });
@@ -180,8 +159,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     const day = yesterday();
     const { view, store, gate } = await gatedSource('stop_storedown', day);
     await gate(600);
-    const proxy = await startTcpProxy(url!);
-    proxies.push(proxy);
+    const proxy = await suite.proxy();
     const app = appName('stop-storedown');
     const dbUrl = proxy.rewrite(withApplicationName(url!, app));
     const svc: ServiceProcess = await startService({ config: config(view, store), sourceUrl: dbUrl, storeUrl: dbUrl, echo: process.env['PLUMBLINE_TEST_ECHO'] === '1' });

@@ -9,16 +9,16 @@
  * exit code, and the store's tables.
  */
 import pg from 'pg';
-import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { loadScenario } from '../../demo-data/load.ts';
 import { addDays, type FaultPlan, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import type { ConfigInput } from '../../src/config/index.ts';
 import type { Report } from '../../src/report/index.ts';
-import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
+import { testDatabaseUrl } from '../support/pg.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { runServeExpectingExit, startService, stopAllServices, withApplicationName, type LogLine, type ServiceProcess } from '../support/service.ts';
+import { runServeExpectingExit, startService, withApplicationName, type LogLine, type ServiceProcess } from '../support/service.ts';
+import { serviceSuite, testSchedule, yesterdayUtc as yesterday } from '../support/service-suite.ts';
 import { until } from '../support/tools.ts';
-import { startTcpProxy, type TcpProxy } from '../support/tcp-proxy.ts';
 
 const url = testDatabaseUrl();
 /** What the services connect with: a name of their own in pg_stat_activity (see withApplicationName). */
@@ -26,9 +26,6 @@ const svcUrl = url === undefined ? '' : withApplicationName(url, 'plumbline-e2e-
 const BASELINE_DAYS = 7;
 /** The bearer token of manual runs (http.manualRuns.enabled), as an operator would give it. */
 const RUN_TOKEN = 'service-faults-run-token-0123';
-
-/** The date the service's catch-up evaluates (schedule.lagDays 1, UTC). Near 00:00 UTC the two clocks could disagree for a moment. */
-const yesterday = (): string => addDays(new Date().toISOString().slice(0, 10), -1);
 
 /** A scenario of BASELINE_DAYS clean days and then `last`, with the given faults. */
 function scenario(last: string, listsPerDay: number, meanListSize: number, faults: FaultPlan[] = []): ScenarioOptions {
@@ -43,7 +40,7 @@ function serviceConfig(table: string, storeSchema: string, layout: 'wide' | 'jso
     overrides: {
       baseline: { window: { type: 'trailing', days: BASELINE_DAYS } },
       // 1 January at 00:00: the tests drive runs through the catch-up on start and POST /api/v1/runs.
-      schedule: { cron: '0 0 1 1 *', timezone: 'UTC', lagDays: 1, catchUpMaxDays: 2, retryBaseSeconds: 1 },
+      schedule: testSchedule({ catchUpMaxDays: 2 }),
       http: { host: '127.0.0.1', port: 0, manualRuns: { enabled: true } },
       ...extra,
     },
@@ -61,39 +58,17 @@ async function reportOf(s: ServiceProcess, date: string): Promise<Report | undef
 }
 
 describe.skipIf(url === undefined)(`plumbline serve through faults, on a PostgreSQL server${url === undefined ? ' (skipped: PLUMBLINE_TEST_DATABASE_URL is not set)' : ''}`, () => {
-  const schemas: string[] = [];
-  const proxies: TcpProxy[] = [];
-  let admin: pg.Client;
-
-  const schema = (prefix: string): string => {
-    const s = uniqueSchema(prefix);
-    schemas.push(s);
-    return s;
-  };
-
-  beforeAll(async () => {
-    admin = new pg.Client({ connectionString: url, application_name: 'plumbline-e2e-admin' });
-    await admin.connect();
-  });
-
-  afterAll(async () => {
-    await stopAllServices();
-    await Promise.all(proxies.map((p) => p.close()));
-    if (admin !== undefined) {
-      for (const s of schemas) await admin.query(`DROP SCHEMA IF EXISTS "${s}" CASCADE`);
-      await admin.end();
-    }
-  });
+  const suite = serviceSuite(url);
+  const schema = (prefix: string): string => suite.schema(prefix);
 
   it('starts while PostgreSQL is down, reports it, and becomes ready and catches up by itself once it is back', async () => {
     const day = yesterday();
     const src = schema('sf_down_src');
     const store = schema('sf_down_store');
     const table = `${src}.impressions`;
-    await loadScenario(admin, { table, layout: 'wide', scenario: scenario(day, 100, 10) });
+    await loadScenario(suite.admin, { table, layout: 'wide', scenario: scenario(day, 100, 10) });
 
-    const proxy = await startTcpProxy(url!);
-    proxies.push(proxy);
+    const proxy = await suite.proxy();
     await proxy.pause();
     const dbUrl = proxy.rewrite(svcUrl);
     const svc = await startService({ runToken: RUN_TOKEN, config: serviceConfig(table, store), sourceUrl: dbUrl, storeUrl: dbUrl });
@@ -144,11 +119,10 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const src = schema('sf_kill_src');
     const store = schema('sf_kill_store');
     const table = `${src}.impressions`;
-    await loadScenario(admin, { table, layout: 'wide', scenario: scenario(day, 1000, 15) });
+    await loadScenario(suite.admin, { table, layout: 'wide', scenario: scenario(day, 1000, 15) });
 
     // The source goes through the proxy, so its server sessions are known by their client port.
-    const proxy = await startTcpProxy(url!);
-    proxies.push(proxy);
+    const proxy = await suite.proxy();
     const svc = await startService({ runToken: RUN_TOKEN, config: serviceConfig(table, store), sourceUrl: proxy.rewrite(svcUrl), storeUrl: svcUrl });
     const before = await until(`the catch-up report for ${day}`, 60_000, () => reportOf(svc, day), 250);
     await until('the metrics of the first run', 10_000, async () => ((await svc.metric('plumbline_runs_total')) === 1 ? true : undefined));
@@ -219,13 +193,13 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const src = schema('sf_term_src');
     const store = schema('sf_term_store');
     const table = `${src}.impressions`;
-    await loadScenario(admin, { table, layout: 'wide', scenario: scenario(day, 200, 10) });
+    await loadScenario(suite.admin, { table, layout: 'wide', scenario: scenario(day, 200, 10) });
     // Make the evaluated day big (100 copies of its lists, about 200k rows) in SQL, which is much faster than generating it.
-    const cols = (await admin.query<{ c: string }>(`SELECT column_name AS c FROM information_schema.columns WHERE table_schema = $1 AND table_name = 'impressions' ORDER BY ordinal_position`, [src])).rows.map((r) => r.c);
+    const cols = (await suite.admin.query<{ c: string }>(`SELECT column_name AS c FROM information_schema.columns WHERE table_schema = $1 AND table_name = 'impressions' ORDER BY ordinal_position`, [src])).rows.map((r) => r.c);
     const select = cols.map((c) => (c === 'list_id' ? `list_id || '~' || k` : `"${c}"`)).join(', ');
-    await admin.query(`INSERT INTO ${table} (${cols.map((c) => `"${c}"`).join(', ')}) SELECT ${select} FROM ${table}, generate_series(1, 99) AS k WHERE snapshot_date = $1::date`, [day]);
-    await admin.query(`ANALYZE ${table}`);
-    const rows = Number((await admin.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${table} WHERE snapshot_date = $1::date`, [day])).rows[0]!.n);
+    await suite.admin.query(`INSERT INTO ${table} (${cols.map((c) => `"${c}"`).join(', ')}) SELECT ${select} FROM ${table}, generate_series(1, 99) AS k WHERE snapshot_date = $1::date`, [day]);
+    await suite.admin.query(`ANALYZE ${table}`);
+    const rows = Number((await suite.admin.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${table} WHERE snapshot_date = $1::date`, [day])).rows[0]!.n);
     expect(rows).toBeGreaterThan(150_000);
 
     const config = serviceConfig(table, store);
@@ -253,7 +227,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     expect(svc.logs.at(-1)?.msg).toBe('stopped');
 
     // The store: the date's findings all come from its newest successful run, as many as its report lists.
-    const q = (sql: string) => admin.query(sql.replaceAll('S.', `"${store}".`), [day]);
+    const q = (sql: string) => suite.admin.query(sql.replaceAll('S.', `"${store}".`), [day]);
     const runs = (await q(`SELECT id, outcome, jsonb_array_length(report->'findings') AS n FROM S.runs WHERE run_date = $1::date ORDER BY id`)).rows as { id: string; outcome: string; n: number | null }[];
     const successes = runs.filter((r) => r.outcome === 'success');
     expect(successes.length === 1 || successes.length === 2, JSON.stringify(runs)).toBe(true);
@@ -302,7 +276,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
     const jsonStore = schema('sf_text_store');
     // NaN, +Infinity and -Infinity in a float8 column; "12,34" (a decimal comma) in a jsonb key that should hold numbers.
     await Promise.all([
-      loadScenario(admin, { table: `${wideSrc}.impressions`, layout: 'wide', scenario: scenario(day, 150, 10, [{ date: day, kind: 'nonfinite', feature: 'text_match', amount: 0.05 }]) }),
+      loadScenario(suite.admin, { table: `${wideSrc}.impressions`, layout: 'wide', scenario: scenario(day, 150, 10, [{ date: day, kind: 'nonfinite', feature: 'text_match', amount: 0.05 }]) }),
       (async () => {
         const c = new pg.Client({ connectionString: url });
         await c.connect();
@@ -313,7 +287,7 @@ describe.skipIf(url === undefined)(`plumbline serve through faults, on a Postgre
         }
       })(),
     ]);
-    const counts = (await admin.query<{ nonfinite: number; text: number }>(
+    const counts = (await suite.admin.query<{ nonfinite: number; text: number }>(
       `SELECT (SELECT count(*)::int FROM "${wideSrc}".impressions WHERE snapshot_date = $1::date AND text_match IN ('NaN', 'Infinity', '-Infinity')) AS nonfinite,
               (SELECT count(*)::int FROM "${jsonSrc}".impressions WHERE snapshot_date = $1::date AND jsonb_typeof(features->'price') = 'string') AS text`,
       [day],

@@ -1,9 +1,14 @@
 /**
- * Slices end to end on a real PostgreSQL server (both engines) and on PGlite (stream): a
+ * Slices end to end on a real PostgreSQL server and on PGlite, both engines on each: a
  * shift confined to the top 10 positions and a shift confined to one market of about 6 % of
  * the lists (tests/support/slice-days.ts) are caught by the slice checks and not by the
  * whole-day checks, clean days with weekly seasonality stay quiet, and the two engines agree
  * on every slice finding.
+ *
+ * The days are as small as the assertions allow (the file ran 90 s with 800 lists a day):
+ * each market kept as a segment still has minRows rows a day, the top 10 positions are a
+ * quarter of the rows (so the whole day stays quiet), and the clean week still covers more
+ * than 500 slice-feature-days.
  */
 import pg from 'pg';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -12,15 +17,19 @@ import { loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
 import type { Finding, Report } from '../../src/report/index.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
-import { startPglite, type PgliteServer } from '../support/pglite.ts';
+import { startEmbeddedPostgres, type EmbeddedPostgres } from '../../src/demo/embedded.ts';
 import { runDays } from '../support/run-days.ts';
 import { scenarioConfig } from '../support/scenario-config.ts';
-import { CLEAN_DAYS, SEGMENT_SHIFT_DAY, SLICE_BASELINE_DAYS, SLICE_START, TOP_SHIFT_DAY, cleanDay, loadSliceScenario, sliceScenario } from '../support/slice-days.ts';
+import { CLEAN_DAYS, SEGMENT_SHIFT_DAY, SLICE_BASELINE_DAYS, TOP_SHIFT_DAY, cleanDay, loadSliceScenario, sliceScenario } from '../support/slice-days.ts';
 
 const url = testDatabaseUrl();
 const LEVEL = { ok: 0, warn: 1, critical: 2 } as const;
+/** Lists a day on the server: "isle" (~6 %) has ~18 lists, ~720 rows, above minRows 400; "reef" (~4 %) is near it. */
+const SERVER = { listsPerDay: 300, meanListSize: 40, minRows: 400 };
+/** On PGlite (rows load slowly): "isle" has ~9 lists, ~360 rows, above minRows 200. */
+const LITE = { listsPerDay: 150, meanListSize: 40, minRows: 200 };
 
-function sliceConfig(table: string, store: string, engine: 'stream' | 'pushdown', minRows = 1000): Config {
+function sliceConfig(table: string, store: string, engine: 'stream' | 'pushdown', minRows: number): Config {
   const config = scenarioConfig(table, {
     storeSchema: store,
     overrides: {
@@ -37,11 +46,10 @@ const level = (f: Finding | undefined): number => (f === undefined ? -1 : LEVEL[
 const drift = (r: Report, slice: string, feature: string): number => Math.max(level(find(r, slice, feature, 'psi')), level(find(r, slice, feature, 'ks')));
 
 /** The shifts are caught in their slice and not in the whole day. */
-function expectShiftsCaught(reports: Map<string, Report>, engine: string, segment = true): void {
+function expectShiftsCaught(reports: Map<string, Report>, engine: string): void {
   const top = reports.get(TOP_SHIFT_DAY)!;
   expect(drift(top, 'top10', 'text_match'), `${engine}: top10 text_match`).toBeGreaterThanOrEqual(LEVEL.warn);
   expect(drift(top, 'all', 'text_match'), `${engine}: whole-day text_match`).toBe(LEVEL.ok);
-  if (!segment) return;
   const seg = reports.get(SEGMENT_SHIFT_DAY)!;
   expect(drift(seg, 'segment:market=isle', 'price'), `${engine}: isle price`).toBeGreaterThanOrEqual(LEVEL.warn);
   expect(drift(seg, 'all', 'price'), `${engine}: whole-day price`).toBe(LEVEL.ok);
@@ -61,12 +69,12 @@ describe.skipIf(url === undefined)('slices on the PostgreSQL server (PLUMBLINE_T
   beforeAll(async () => {
     admin = new pg.Client({ connectionString: url });
     await admin.connect();
-    await loadSliceScenario(admin, table, { listsPerDay: 800, meanListSize: 40 }, 'copy');
+    await loadSliceScenario(admin, table, SERVER, 'copy');
     const s1 = uniqueSchema('sl_stream');
     const s2 = uniqueSchema('sl_push');
     stores.push(s1, s2);
-    stream = await runDays(sliceConfig(table, s1, 'stream'), url!, [...cleanDates, TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
-    pushdown = await runDays(sliceConfig(table, s2, 'pushdown'), url!, [TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
+    stream = await runDays(sliceConfig(table, s1, 'stream', SERVER.minRows), url!, [...cleanDates, TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
+    pushdown = await runDays(sliceConfig(table, s2, 'pushdown', SERVER.minRows), url!, [TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
   }, 600_000);
 
   afterAll(async () => {
@@ -196,32 +204,40 @@ describe.skipIf(url === undefined)('both engines agree on slices (PLUMBLINE_TEST
   });
 });
 
-describe('slices on PGlite (stream engine)', () => {
-  let lite: PgliteServer;
-  let reports: Map<string, Report>;
+describe('slices on PGlite (both engines)', () => {
+  let lite: EmbeddedPostgres;
+  const reports = {} as Record<'stream' | 'pushdown', Map<string, Report>>;
   const src = 'sl_lite';
 
   beforeAll(async () => {
-    lite = await startPglite();
+    lite = await startEmbeddedPostgres();
     const client = new pg.Client({ connectionString: lite.url });
     await client.connect();
     try {
-      // The baseline days and the top-10 shift day only (PGlite loads rows slowly).
-      const dates = [...scenarioDates(sliceScenario(1, 40)).slice(0, SLICE_BASELINE_DAYS), TOP_SHIFT_DAY];
-      expect(dates[0]).toBe(SLICE_START);
-      await loadSliceScenario(client, `${src}.impressions`, { listsPerDay: 250, meanListSize: 40 }, 'unnest', dates);
+      // The two shift days and the 14 days before each (PGlite loads rows slowly): the last
+      // 16 days of the scenario; the top-10 shift day is in the segment day's baseline, which
+      // only its text_match differs on.
+      const dates = scenarioDates(sliceScenario(1, 40)).slice(-(SLICE_BASELINE_DAYS + 2));
+      expect(dates.slice(-2)).toEqual([TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
+      await loadSliceScenario(client, `${src}.impressions`, LITE, 'unnest', dates);
     } finally {
       await client.end();
     }
-    reports = await runDays(sliceConfig(`${src}.impressions`, 'sl_lite_store', 'stream', 500), lite.url, [TOP_SHIFT_DAY]);
+    for (const engine of ['stream', 'pushdown'] as const) {
+      reports[engine] = await runDays(sliceConfig(`${src}.impressions`, `sl_lite_${engine}`, engine, LITE.minRows), lite.url, [TOP_SHIFT_DAY, SEGMENT_SHIFT_DAY]);
+    }
   }, 300_000);
 
   afterAll(async () => {
     await lite?.stop();
   });
 
-  it('catches the top-10 shift in top10 and not in the whole day', () => {
-    expectShiftsCaught(reports, 'pglite', false);
-    expect(reports.get(TOP_SHIFT_DAY)!.findings.find((f) => f.slice === 'top10' && f.feature === 'text_match' && f.check === 'psi')?.summary).toMatch(/^PSI/);
+  it('stream engine: catches the top-10 shift in top10 and the market shift in its market, not in the whole day', () => {
+    expectShiftsCaught(reports.stream, 'pglite stream');
+    expect(find(reports.stream.get(TOP_SHIFT_DAY)!, 'top10', 'text_match', 'psi')?.summary).toMatch(/^PSI/);
+  });
+
+  it('pushdown engine: catches both in their slices, not in the whole day', () => {
+    expectShiftsCaught(reports.pushdown, 'pglite pushdown');
   });
 });

@@ -3,7 +3,11 @@
  * process: a few baseline days and one day just over the worker-thread threshold
  * (PARALLEL_MIN_ROWS), made by generate_series in the server so it takes about a second.
  */
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 import pg from 'pg';
+import { afterAll, beforeAll } from 'vitest';
 import { PARALLEL_MIN_ROWS } from '../../src/profile/index.ts';
 import { uniqueSchema } from './pg.ts';
 
@@ -66,6 +70,33 @@ export async function createBigDay(url: string, prefix: string): Promise<BigDay>
       } finally {
         await c.end();
       }
+    },
+  };
+}
+
+/**
+ * Registers the file's beforeAll/afterAll: a big day (createBigDay) and a temporary folder
+ * for config files, both removed after the file. Read `day` and `dir` inside tests.
+ */
+export function useBigDay(url: string, prefix: string): { readonly day: BigDay; readonly dir: string } {
+  let day: BigDay | undefined;
+  let dir: string | undefined;
+  beforeAll(async () => {
+    day = await createBigDay(url, prefix);
+    dir = mkdtempSync(join(tmpdir(), `plumbline-${prefix}-`));
+  });
+  afterAll(async () => {
+    await day?.drop();
+    if (dir !== undefined) rmSync(dir, { recursive: true, force: true });
+  });
+  return {
+    get day(): BigDay {
+      if (day === undefined) throw new Error('the big day exists only between beforeAll and afterAll');
+      return day;
+    },
+    get dir(): string {
+      if (dir === undefined) throw new Error('the folder exists only between beforeAll and afterAll');
+      return dir;
     },
   };
 }

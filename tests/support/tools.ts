@@ -1,11 +1,12 @@
 /**
  * Small helpers the end-to-end and integration tests share: a free loopback port, an
- * installed program by name, bounded polling, and stopping a child process.
+ * installed program by name, a clean environment for child processes, bounded polling, and
+ * stopping a child process.
  */
 import type { ChildProcess } from 'node:child_process';
 import { accessSync, constants } from 'node:fs';
 import { createServer } from 'node:net';
-import { delimiter, join } from 'node:path';
+import { delimiter, dirname, join } from 'node:path';
 
 export const sleep = (ms: number): Promise<void> => new Promise((resolve) => setTimeout(resolve, ms));
 
@@ -20,6 +21,27 @@ export function freePort(): Promise<number> {
       srv.close(() => resolve(port));
     });
   });
+}
+
+/** Resolves once this process can listen on `port` of 127.0.0.1 (so nothing else holds it), and lets it go again; rejects when the port is taken. */
+export function listenOnce(port: number): Promise<void> {
+  return new Promise((resolve, reject) => {
+    const srv = createServer();
+    srv.once('error', reject);
+    srv.listen(port, '127.0.0.1', () => srv.close(() => resolve()));
+  });
+}
+
+/**
+ * The caller's environment for npm and the installed `plumbline` command: without npm's
+ * lifecycle variables (npm test sets npm_config_*) and PLUMBLINE_* settings, with this Node
+ * first on PATH (for `#!/usr/bin/env node` bins), npm's update check off, plus `extra`.
+ */
+export function cleanEnv(extra: Record<string, string> = {}): Record<string, string> {
+  const env: Record<string, string> = {};
+  for (const [k, v] of Object.entries(process.env)) if (v !== undefined && !/^npm_/i.test(k) && !k.startsWith('PLUMBLINE_')) env[k] = v;
+  env['PATH'] = `${dirname(process.execPath)}:${env['PATH'] ?? '/usr/bin:/bin'}`;
+  return { ...env, npm_config_update_notifier: 'false', ...extra };
 }
 
 /** Folders searched after PATH: where Debian's packages and local installs put programs. */
