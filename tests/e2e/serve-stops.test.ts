@@ -48,6 +48,14 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
     return { view: `${src}.impressions_gated`, store, gate: async (seconds) => void (await suite.admin.query(`UPDATE "${src}".gate SET sleep_seconds = $1`, [seconds])) };
   }
 
+  /** A gated source for yesterday with the gate closed (every day read sleeps), and the application_name its service is to use. */
+  async function closedGate(prefix: string): Promise<{ day: string; view: string; store: string; gate: (seconds: number) => Promise<void>; app: string }> {
+    const day = yesterday();
+    const source = await gatedSource(prefix, day);
+    await source.gate(600);
+    return { day, ...source, app: appName(prefix.replaceAll('_', '-')) };
+  }
+
   function config(view: string, store: string, schedule: Parameters<typeof testSchedule>[0] = {}): unknown {
     return scenarioConfig(view, {
       storeSchema: store,
@@ -72,10 +80,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
   }
 
   it('SIGTERM during a long statement: the statement is cancelled, the process exits within the grace, the run is recorded interrupted', async () => {
-    const day = yesterday();
-    const { view, store, gate } = await gatedSource('stop_term', day);
-    await gate(600);
-    const app = appName('stop-term');
+    const { day, view, store, gate, app } = await closedGate('stop_term');
     const svc = await startService({ config: config(view, store, { shutdownGraceSeconds: 2 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
     await sleepingCopy(app);
     const sent = Date.now();
@@ -104,10 +109,7 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
   }, 120_000);
 
   it('a run past schedule.runTimeoutMinutes is aborted, recorded as failed and retried', async () => {
-    const day = yesterday();
-    const { view, store, gate } = await gatedSource('stop_deadline', day);
-    await gate(600);
-    const app = appName('stop-deadline');
+    const { day, view, store, gate, app } = await closedGate('stop_deadline');
     // 0.05 minutes: 3 s.
     const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: withApplicationName(url!, app), storeUrl: url! });
     const failed = await svc.waitForLog('the deadline', (l) => l.msg === 'run failed' && l['runDate'] === day, 30_000);
@@ -127,11 +129,8 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
   }, 120_000);
 
   it('a half-open source connection: the run deadline gives up on the hung run, records it failed, and a retry succeeds once the path is back', async () => {
-    const day = yesterday();
-    const { view, store, gate } = await gatedSource('stop_halfopen', day);
-    await gate(600);
+    const { day, view, store, gate, app } = await closedGate('stop_halfopen');
     const proxy = await suite.proxy();
-    const app = appName('stop-halfopen');
     // The source goes through the proxy; the store does not (so the failure can be recorded).
     const svc = await startService({ config: config(view, store, { runTimeoutMinutes: 0.05 }), sourceUrl: proxy.rewrite(withApplicationName(url!, app)), storeUrl: url! });
     await sleepingCopy(app);
@@ -156,11 +155,8 @@ describe.skipIf(url === undefined)(`serve with a long statement in flight${url =
   }, 150_000);
 
   it('the store goes down mid-run (the failure cannot be recorded, the leader lock cannot be asked): the retry still runs once it is back', async () => {
-    const day = yesterday();
-    const { view, store, gate } = await gatedSource('stop_storedown', day);
-    await gate(600);
+    const { day, view, store, gate, app } = await closedGate('stop_storedown');
     const proxy = await suite.proxy();
-    const app = appName('stop-storedown');
     const dbUrl = proxy.rewrite(withApplicationName(url!, app));
     const svc: ServiceProcess = await startService({ config: config(view, store), sourceUrl: dbUrl, storeUrl: dbUrl, echo: process.env['PLUMBLINE_TEST_ECHO'] === '1' });
     await sleepingCopy(app);

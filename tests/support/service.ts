@@ -24,6 +24,15 @@ export function withApplicationName(url: string, name: string): string {
   return u.toString();
 }
 
+/** `body` parsed as JSON, or undefined when it is not JSON. */
+function jsonOrUndefined(body: string): unknown {
+  try {
+    return JSON.parse(body) as unknown;
+  } catch {
+    return undefined;
+  }
+}
+
 export interface LogLine {
   time?: string;
   level?: string;
@@ -170,12 +179,7 @@ export class ServiceProcess {
   async get(path: string): Promise<{ status: number; body: string; json: unknown }> {
     const res = await fetch(`${this.url}${path}`);
     const body = await res.text();
-    let json: unknown = undefined;
-    try {
-      json = JSON.parse(body);
-    } catch {
-      /* not JSON */
-    }
+    const json = jsonOrUndefined(body);
     return { status: res.status, body, json };
   }
 
@@ -184,12 +188,7 @@ export class ServiceProcess {
     const auth: Record<string, string> = this.runToken !== undefined ? { authorization: `Bearer ${this.runToken}` } : {};
     const res = await fetch(`${this.url}${path}`, { method: 'POST', headers: { ...auth, ...headers } });
     const body = await res.text();
-    let json: unknown = undefined;
-    try {
-      json = JSON.parse(body);
-    } catch {
-      /* not JSON */
-    }
+    const json = jsonOrUndefined(body);
     return { status: res.status, json, body };
   }
 

@@ -1,6 +1,6 @@
 /**
  * The slice scenario: the invented marketplace of demo-data/ with a list-level `market`
- * column (five invented markets, one of them, "isle", about 6 % of the lists), 14 clean
+ * column (five invented markets, one of them, "isle", about 6 % of the lists), 7 clean
  * baseline days, then clean days and days with a shift confined to the top 10 positions or
  * to one market. Shifts are injected in SQL after loading, so the generator stays as it is.
  */
@@ -8,7 +8,7 @@ import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { loadScenario, type Queryable } from '../../demo-data/load.ts';
 
 export const SLICE_START = '2025-05-05'; // a Monday
-export const SLICE_BASELINE_DAYS = 14;
+export const SLICE_BASELINE_DAYS = 7;
 /** Clean evaluation days after the baseline (a week: every weekday and the weekend). */
 export const CLEAN_DAYS = 7;
 export const cleanDay = (i: number): string => addDays(SLICE_START, SLICE_BASELINE_DAYS + i);
