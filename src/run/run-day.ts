@@ -14,7 +14,7 @@ import { ConfigError, DataError, SourceError } from '../errors.ts';
 import { errorFields, type Logger } from '../log.ts';
 import { EMPTY_DATASET, buildDayProfile, capDayProfile, mergeBaseline, threadedProfiler, withFineBins, type BaselineProfile, type DayProfile } from '../profile/index.ts';
 import { REPORT_SCHEMA_VERSION, worstStatus, type Finding, type Report } from '../report/index.ts';
-import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, readRankingAggregates, withRankingAggregates, type PushdownSpecs, type SourcePlan } from '../source/index.ts';
+import { assemblePushdownProfile, checkJsonbKeys, countDays, planSource, readDay, readDayAggregates, readRankingAggregates, withRankingAggregates, type PushdownSpecs, type PushdownTimings, type SourcePlan } from '../source/index.ts';
 import { wasInterrupted } from './abort.ts';
 import { addDays, baselineDates } from './dates.ts';
 
@@ -106,16 +106,21 @@ async function readProfile(deps: RunDeps, plan: SourcePlan, date: string, bins: 
  */
 async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayProfile> {
   const t0 = performance.now();
+  const timings: PushdownTimings & { rankingSeconds?: number; sampleSeconds?: number } = {};
   const { agg, ranking, cols } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
-    const agg = await readDayAggregates(client, deps.config, plan, date, specs);
+    const agg = await readDayAggregates(client, deps.config, plan, date, specs, timings);
+    const tr = performance.now();
     const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: deps.config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
+    const ts = performance.now();
     const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength });
+    timings.rankingSeconds = (ts - tr) / 1000;
+    timings.sampleSeconds = (performance.now() - ts) / 1000;
     return { agg, ranking, cols };
   });
   const t1 = performance.now();
   const sample = await buildDayProfile(cols, deps.config, null, threadedProfiler());
   const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, deps.config, specs), ranking, sample, deps.config, plan.hasLabel);
-  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
+  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, sqlSeconds: (t1 - t0) / 1000, ...timings, profileSeconds: (performance.now() - t1) / 1000 });
   return profile;
 }
 

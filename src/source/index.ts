@@ -12,6 +12,7 @@ export {
   type DayAggregates,
   type PushdownQueries,
   type PushdownSpecs,
+  type PushdownTimings,
   type ValueCoding,
 } from './pushdown.ts';
 export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';

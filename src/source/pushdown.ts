@@ -374,13 +374,20 @@ export async function preparePushdownSession(client: PoolClient): Promise<void> 
   await client.query('SET LOCAL enable_partitionwise_aggregate = on');
 }
 
+/** Seconds each statement took, for the run's debug log (where a pushdown run's time goes). */
+export interface PushdownTimings {
+  listPassSeconds?: number;
+  valuePassSeconds?: number;
+}
+
 /**
  * Runs both aggregate statements for one day. `client` must be inside a read-only
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
-export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): Promise<DayAggregates> {
+export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, timings?: PushdownTimings): Promise<DayAggregates> {
   const q = buildPushdownQueries(config, plan, date, specs);
   await preparePushdownSession(client);
+  const t0 = performance.now();
 
   const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; ni: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
   const sizes = new Array<number>(LIST_SIZE_BINS).fill(0);
@@ -414,7 +421,12 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
   });
 
+  const t1 = performance.now();
   const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  if (timings !== undefined) {
+    timings.listPassSeconds = (t1 - t0) / 1000;
+    timings.valuePassSeconds = (performance.now() - t1) / 1000;
+  }
   const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name])]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
