@@ -5,7 +5,7 @@
  * from labels. Pure: typed arrays in, mergeable sums out.
  */
 import { NULL_POSITION, type AssociationCounts, type OutcomeCounts, type RankCorrelationSums } from './types.ts';
-import { POSITION_BUCKET_UPPER, RankScratch, averageRanksInto, ndcgAtK, positionBucket, radixArgsortFinite, reciprocalRank, rhoFromRanks } from '../stats/index.ts';
+import { POSITION_BUCKET_UPPER, RankScratch, averageRanksInto, ndcgAtK, positionBucket, reciprocalRank, rhoFromRanks } from '../stats/index.ts';
 import type { ListGrouping } from './day.ts';
 
 
@@ -30,10 +30,6 @@ export interface ServedOrder {
   scoreRank: Float64Array | null;
   /** 1 when every entry of the list has a finite score. */
   scoreComplete: Uint8Array | null;
-  /** Entry of each row of the day (-1 for a row without a list or a position). */
-  entryOf: Int32Array;
-  /** List of each entry. */
-  listOfEntry: Int32Array;
 }
 
 function shared<T extends Float64Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {
@@ -75,8 +71,6 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
   const sc = score === null ? null : shared(Float64Array, total);
   const scoreRank = score === null ? null : shared(Float64Array, total);
   const scoreComplete = score === null ? null : shared(Uint8Array, lists);
-  const entryOf = shared(Int32Array, position.length).fill(-1);
-  const listOfEntry = shared(Int32Array, total);
   let keys = new Float64Array(64);
   const scratch = new RankScratch();
   for (let l = 0; l < lists; l++) {
@@ -109,8 +103,6 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       const r = g.order[k]!;
       rows[e0 + t] = r;
       pos[e0 + t] = position[r]!;
-      entryOf[r] = e0 + t;
-      listOfEntry[e0 + t] = l;
     }
     ranksOfSortedInto(pos, e0, n, positionRank, e0);
     let rank = 1;
@@ -133,7 +125,7 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       }
     }
   }
-  return { start, rows, position: pos, positionRank, servedRank, score: sc, scoreRank, scoreComplete, entryOf, listOfEntry };
+  return { start, rows, position: pos, positionRank, servedRank, score: sc, scoreRank, scoreComplete };
 }
 
 export function emptyCorrelationSums(): RankCorrelationSums {
@@ -176,117 +168,56 @@ class PairScratch {
  * score itself) with the score, summed over the lists. A list counts when it has at least 3
  * pairs with both values finite and both sides vary (rho is undefined otherwise). Ranks are
  * taken among the complete pairs only, as SciPy's spearmanr does after dropping missing pairs.
- *
- * How: the column's finite values are ordered once (`finiteOrder`, an argsort; computed here
- * when not given), and a counting sort of that order by list puts every list's entries in
- * value order, so a list whose values are all finite (and whose scores are, when the score
- * counts) gets its average ranks by one walk over its tie groups: O(rows) for the day instead
- * of one small sort per list. Other lists take the general path below. The sums of products
- * of half-integer ranks are exact in float64, so the result does not depend on the order.
  */
-export function featureAssociation(values: Float64Array, served: ServedOrder, withScore: boolean, finiteOrder?: Int32Array): AssociationCounts {
+export function featureAssociation(values: Float64Array, served: ServedOrder, withScore: boolean): AssociationCounts {
   const position = emptyCorrelationSums();
   const score = withScore && served.score !== null ? emptyCorrelationSums() : null;
-  const lists = served.start.length - 1;
-  const order = finiteOrder ?? radixArgsortFinite(values);
-  // Entries of each list in value order (finite values only): byValue[start[l] .. fill[l]).
-  const byValue = new Int32Array(served.rows.length);
-  const fill = served.start.slice(0, Math.max(0, lists));
-  for (let k = 0; k < order.length; k++) {
-    const e = served.entryOf[order[k]!]!;
-    if (e >= 0) byValue[fill[served.listOfEntry[e]!]!++] = e;
-  }
   const sp = new PairScratch();
+  const lists = served.start.length - 1;
   for (let l = 0; l < lists; l++) {
     const e0 = served.start[l]!;
     const n = served.start[l + 1]! - e0;
     if (n < 3) continue;
-    const m = fill[l]! - e0;
-    if (m === n && (score === null || served.scoreComplete![l] === 1)) {
-      const mid = (n + 1) / 2;
-      let sxx = 0;
-      let sxy = 0;
-      let syy = 0;
-      let szz = 0;
-      let sxz = 0;
-      let i = 0;
-      while (i < n) {
-        const v = values[served.rows[byValue[e0 + i]!]!]!;
-        let j = i + 1;
-        while (j < n && values[served.rows[byValue[e0 + j]!]!] === v) j++;
-        const a = (i + 1 + j) / 2 - mid;
-        for (let t = i; t < j; t++) {
-          const e = byValue[e0 + t]!;
-          const b = served.positionRank[e]! - mid;
-          sxx += a * a;
-          sxy += a * b;
-          syy += b * b;
-          if (score !== null) {
-            const c = served.scoreRank![e]! - mid;
-            sxz += a * c;
-            szz += c * c;
-          }
-        }
-        i = j;
+    sp.ensure(n);
+    // Feature values in served order, with their position ranks among the complete pairs.
+    let m = 0;
+    for (let t = 0; t < n; t++) {
+      const x = values[served.rows[e0 + t]!]!;
+      if (Number.isFinite(x)) {
+        sp.x[m] = x;
+        sp.y[m] = served.position[e0 + t]!;
+        m++;
       }
-      addRho(position, rhoOfSums(sxy, sxx, syy));
-      if (score !== null) addRho(score, rhoOfSums(sxz, sxx, szz));
+    }
+    if (m < 3) continue;
+    averageRanksInto(sp.x, m, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(m));
+    if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank, n, e0));
+    else {
+      ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
+      addRho(position, rhoFromRanks(sp.rx, sp.ry, m));
+    }
+    if (score === null) continue;
+    const s = served.score!;
+    if (m === n && served.scoreComplete![l] === 1) {
+      addRho(score, rhoFromRanks(sp.rx, served.scoreRank!, n, e0));
       continue;
     }
-    listAssociation(values, served, l, sp, position, score);
+    let q = 0;
+    for (let t = 0; t < n; t++) {
+      const x = values[served.rows[e0 + t]!]!;
+      const y = s[e0 + t]!;
+      if (Number.isFinite(x) && Number.isFinite(y)) {
+        sp.x[q] = x;
+        sp.y[q] = y;
+        q++;
+      }
+    }
+    if (q < 3) continue;
+    averageRanksInto(sp.x, q, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(q));
+    averageRanksInto(sp.y, q, sp.ranks.sorted, sp.ry, sp.ranks.sortedView(q));
+    addRho(score, rhoFromRanks(sp.rx, sp.ry, q));
   }
   return { position, score };
-}
-
-/** As rhoFromRanks, from its sums: null when either side is constant, clamped to [-1, 1]. */
-function rhoOfSums(sxy: number, sxx: number, syy: number): number | null {
-  if (sxx === 0 || syy === 0) return null;
-  const r = sxy / Math.sqrt(sxx * syy);
-  return r > 1 ? 1 : r < -1 ? -1 : r;
-}
-
-/** One list's correlations when some of its values (or scores) are missing: ranks among the complete pairs. */
-function listAssociation(values: Float64Array, served: ServedOrder, l: number, sp: PairScratch, position: RankCorrelationSums, score: RankCorrelationSums | null): void {
-  const e0 = served.start[l]!;
-  const n = served.start[l + 1]! - e0;
-  sp.ensure(n);
-  // Feature values in served order, with their position ranks among the complete pairs.
-  let m = 0;
-  for (let t = 0; t < n; t++) {
-    const x = values[served.rows[e0 + t]!]!;
-    if (Number.isFinite(x)) {
-      sp.x[m] = x;
-      sp.y[m] = served.position[e0 + t]!;
-      m++;
-    }
-  }
-  if (m < 3) return;
-  averageRanksInto(sp.x, m, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(m));
-  if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank, n, e0));
-  else {
-    ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
-    addRho(position, rhoFromRanks(sp.rx, sp.ry, m));
-  }
-  if (score === null) return;
-  const s = served.score!;
-  if (m === n && served.scoreComplete![l] === 1) {
-    addRho(score, rhoFromRanks(sp.rx, served.scoreRank!, n, e0));
-    return;
-  }
-  let q = 0;
-  for (let t = 0; t < n; t++) {
-    const x = values[served.rows[e0 + t]!]!;
-    const y = s[e0 + t]!;
-    if (Number.isFinite(x) && Number.isFinite(y)) {
-      sp.x[q] = x;
-      sp.y[q] = y;
-      q++;
-    }
-  }
-  if (q < 3) return;
-  averageRanksInto(sp.x, q, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(q));
-  averageRanksInto(sp.y, q, sp.ranks.sorted, sp.ry, sp.ranks.sortedView(q));
-  addRho(score, rhoFromRanks(sp.rx, sp.ry, q));
 }
 
 /**

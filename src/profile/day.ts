@@ -12,7 +12,6 @@ import {
   isFlatList,
   listAggregate,
   qualityCounts,
-  radixArgsortFinite,
   radixSortedCopy,
   ruleViolated,
   type BinSpec,
@@ -142,36 +141,18 @@ export function numericProfile(
 ): NumericProfile {
   const quality = qualityCounts(values, missing, feature.range);
 
-  const association = feature.scope === 'item' && g.ranking !== undefined;
+  const finite = new Float64Array(quality.finite);
   let k = 0;
   // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
   const sum: SplitSum = { small: 0, largeScaled: 0 };
-  let sorted: Float64Array;
-  let finiteOrder: Int32Array | undefined;
-  if (association) {
-    // The association orders every list by value through one argsort of the column (association.ts);
-    // the sorted copy is gathered from it (the same array radixSortedCopy gives).
-    finiteOrder = radixArgsortFinite(values);
-    sorted = new Float64Array(finiteOrder.length);
-    for (let j = 0; j < finiteOrder.length; j++) sorted[j] = values[finiteOrder[j]!]!;
-    for (let i = 0; i < values.length; i++) {
-      const v = values[i]!;
-      if (Number.isFinite(v)) {
-        k++;
-        addToSplitSum(sum, v);
-      }
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i]!;
+    if (Number.isFinite(v)) {
+      finite[k++] = v;
+      addToSplitSum(sum, v);
     }
-  } else {
-    const finite = new Float64Array(quality.finite);
-    for (let i = 0; i < values.length; i++) {
-      const v = values[i]!;
-      if (Number.isFinite(v)) {
-        finite[k++] = v;
-        addToSplitSum(sum, v);
-      }
-    }
-    sorted = radixSortedCopy(finite);
   }
+  const sorted = radixSortedCopy(finite);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -204,7 +185,9 @@ export function numericProfile(
     mean: k > 0 ? meanOfSplitSum(sum, k) : null,
     withinList,
   };
-  if (association) profile.association = featureAssociation(values, g.ranking!.served, feature.name !== g.ranking!.scoreFeature, finiteOrder);
+  if (feature.scope === 'item' && g.ranking !== undefined) {
+    profile.association = featureAssociation(values, g.ranking.served, feature.name !== g.ranking.scoreFeature);
+  }
   return profile;
 }
 

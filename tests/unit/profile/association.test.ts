@@ -7,10 +7,9 @@
  */
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../../src/config/index.ts';
-import { buildDayProfile, featureAssociation, groupByList, mergeBaseline, servedOrder, type NumericProfile } from '../../../src/profile/index.ts';
+import { buildDayProfile, mergeBaseline, type NumericProfile } from '../../../src/profile/index.ts';
 import { NULL_POSITION, type DayColumns } from '../../../src/source/index.ts';
-import { MISSING_NULL, RankScratch, spearmanInto } from '../../../src/stats/index.ts';
-import { mulberry32 } from '../stats/prng.ts';
+import { MISSING_NULL } from '../../../src/stats/index.ts';
 
 /*
  * row list pos  label | x     score
@@ -93,43 +92,5 @@ describe('ranking aggregates of a day (stream engine)', () => {
     expect(b.rankingDays!.map((d) => d.date)).toEqual(['2025-03-10', '2025-03-11']);
     expect(b.rankingDays![1]!.association['x']).toEqual((d2.features['x'] as NumericProfile).association);
     expect(b.rankingDays![0]!.outcome).toEqual(d1.outcome);
-  });
-
-  it('orders lists through one argsort of the column: the same sums as a per-list spearmanInto, ties and missing values included', () => {
-    // Lists of 1 to 60 rows, values rounded to one decimal (ties), some NaN features and scores, some null positions;
-    // the reference is stats/spearman.ts spearmanInto on each list's complete pairs (checked against SciPy in its own tests).
-    const rand = mulberry32(77);
-    const lists = 400;
-    const listOf: number[] = [];
-    for (let l = 0; l < lists; l++) for (let k = 0, n = 1 + Math.floor(rand() * 60); k < n; k++) listOf.push(l);
-    const position = Int32Array.from(listOf, () => (rand() < 0.01 ? NULL_POSITION : 1 + Math.floor(rand() * 80)));
-    const x = Float64Array.from(listOf, () => (rand() < 0.02 ? Number.NaN : Math.round(rand() * 30) / 10));
-    const score = Float64Array.from(listOf, () => (rand() < 0.01 ? Number.NaN : rand()));
-    const g = groupByList(Int32Array.from(listOf), lists);
-    const served = servedOrder(position, g, lists, score);
-    const got = featureAssociation(x, served, true);
-    const want = { position: { count: 0, sum: 0, sumSq: 0 }, score: { count: 0, sum: 0, sumSq: 0 } };
-    const scratch = new RankScratch();
-    const add = (s: { count: number; sum: number; sumSq: number }, rho: number | null): void => {
-      if (rho === null) return;
-      s.count++;
-      s.sum += rho;
-      s.sumSq += rho * rho;
-    };
-    for (let l = 0; l < lists; l++) {
-      const members = listOf.map((ll, r) => (ll === l && position[r] !== NULL_POSITION ? r : -1)).filter((r) => r >= 0);
-      if (members.length < 3) continue;
-      const px = members.filter((r) => Number.isFinite(x[r]!));
-      add(want.position, spearmanInto(px.map((r) => x[r]!), px.map((r) => position[r]!), px.length, scratch));
-      const sx = members.filter((r) => Number.isFinite(x[r]!) && Number.isFinite(score[r]!));
-      add(want.score, spearmanInto(sx.map((r) => x[r]!), sx.map((r) => score[r]!), sx.length, scratch));
-    }
-    expect(want.position.count).toBeGreaterThan(300);
-    expect(got.position.count).toBe(want.position.count);
-    expect(got.position.sum).toBeCloseTo(want.position.sum, 10);
-    expect(got.position.sumSq).toBeCloseTo(want.position.sumSq, 10);
-    expect(got.score!.count).toBe(want.score.count);
-    expect(got.score!.sum).toBeCloseTo(want.score.sum, 10);
-    expect(got.score!.sumSq).toBeCloseTo(want.score.sumSq, 10);
   });
 });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { radixArgsortFinite, radixSortedCopy } from '../../../src/stats/index.ts';
+import { radixSortedCopy } from '../../../src/stats/index.ts';
 import { normalSample } from './prng.ts';
 
 function sameBits(a: Float64Array, b: Float64Array): boolean {
@@ -56,32 +56,5 @@ describe('radixSortedCopy (radix sort)', () => {
     expect(Number.isNaN(s[2])).toBe(true);
     expect(radixSortedCopy(new Float64Array(0)).length).toBe(0);
     expect(Array.from(radixSortedCopy(Float64Array.of(Number.NaN, 5)))).toEqual([5, Number.NaN]);
-  });
-});
-
-describe('radixArgsortFinite (argsort of the finite values)', () => {
-  /** The gathered values must be radixSortedCopy of the finite values, bit for bit, and ties keep index order. */
-  function check(v: Float64Array): void {
-    const order = radixArgsortFinite(v);
-    const finite = v.filter((x) => Number.isFinite(x));
-    const gathered = Float64Array.from(order, (i) => v[i]!);
-    expect(sameBits(gathered, radixSortedCopy(finite))).toBe(true);
-    for (let k = 1; k < order.length; k++) if (Object.is(v[order[k]!], v[order[k - 1]!])) expect(order[k]!).toBeGreaterThan(order[k - 1]!);
-  }
-
-  it('doc example: finite values only, -0 before +0, ties in index order', () => {
-    const v = Float64Array.of(3, -0, Number.NaN, -2, 0, Number.POSITIVE_INFINITY, 3, Number.NEGATIVE_INFINITY);
-    expect(Array.from(radixArgsortFinite(v))).toEqual([3, 1, 4, 0, 6]);
-    expect(radixArgsortFinite(new Float64Array(0)).length).toBe(0);
-  });
-
-  it('orders as radixSortedCopy for any doubles (fast-check), small and radix-sized columns', () => {
-    fc.assert(fc.property(fc.array(fc.double(), { maxLength: 300 }), (xs) => check(Float64Array.from(xs))), { numRuns: 200, seed: 33 });
-    fc.assert(fc.property(fc.array(fc.double(), { minLength: 4096, maxLength: 6000 }), (xs) => check(Float64Array.from(xs))), { numRuns: 15, seed: 34 });
-  });
-
-  it('orders large samples: continuous and rounded (many ties, skipped passes)', () => {
-    check(normalSample(44, 200_000));
-    check(normalSample(45, 200_000, { decimals: 1 }));
   });
 });
