@@ -13,6 +13,7 @@ export {
   type PushdownQueries,
   type PushdownSpecs,
   type PushdownTimings,
+  foreignPartitionsOf,
   type ValueCoding,
 } from './pushdown.ts';
 export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';

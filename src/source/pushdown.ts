@@ -44,6 +44,12 @@ export interface PushdownSpecs {
    * pass counts the finite values strictly below `lower` and strictly above `upper`.
    */
   extremeBounds?: Record<string, ExtremeLimits> | null;
+  /**
+   * The leaf partitions of the source when it is a partitioned table whose partitions are all
+   * foreign tables (postgres_fdw shards), as quoted names: the value pass then aggregates each
+   * partition on its own server (see buildPushdownQueries). Set by readDayAggregates.
+   */
+  foreignPartitions?: readonly string[] | null;
 }
 
 export interface ExtremeLimits {
@@ -352,6 +358,33 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
   const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
   const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+  const partitions = specs.foreignPartitions ?? [];
+  if (partitions.length > 0) {
+    // Foreign partitions: one grouped statement per feature and partition, which postgres_fdw
+    // sends to the partition's server whole (it pushes a GROUP BY down only for a single
+    // foreign table, or for a partitioned one when the grouping holds the partition key; a
+    // LATERAL unnest or GROUPING SETS it never ships). Async Append runs the shards' parts
+    // concurrently; the small per-partition results are merged here.
+    const parts: string[] = [];
+    const fin = (x: string): string => `${x} > '-Infinity'::float8 AND ${x} < 'Infinity'::float8`;
+    vfeatures.forEach((fs, i) => {
+      for (const rel of partitions) {
+        const from = `FROM ${rel} WHERE ${plan.dateColumn} = ${vDate}`;
+        if (fs.feature.kind === 'categorical') {
+          parts.push(`SELECT ${i}::int4 AS f, NULL::int4 AS b, ${texts[i]} AS c, count(*) AS n, NULL::float8 AS s, NULL::float8 AS sl, NULL::float8 AS lo, NULL::float8 AS hi ${from} GROUP BY 3`);
+          continue;
+        }
+        const x = values[i]!;
+        parts.push(
+          `SELECT ${i}::int4 AS f, ${codes[i]} AS b, NULL::text AS c, count(*) AS n, sum(${x}) FILTER (WHERE abs(${x}) < ${largeAt}) AS s, sum(${x} * ${scale}) FILTER (WHERE abs(${x}) >= ${largeAt} AND ${fin(x)}) AS sl, min(${x}) AS lo, max(${x}) AS hi ${from} GROUP BY 2`,
+        );
+      }
+    });
+    const text = `SELECT f, b, c, sum(n) AS n, sum(s) AS s, sum(sl) AS sl, min(lo) AS lo, max(hi) AS hi
+  FROM (${parts.join('\n        UNION ALL ')}) AS per_partition
+ GROUP BY 1, 2, 3`;
+    return { listPass: { text: listPass, values: lp.values }, valuePass: { text, values: vp.values } };
+  }
   const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE abs(v.x) < ${largeAt}) AS s,
        sum(v.x * ${scale}) FILTER (WHERE abs(v.x) >= ${largeAt} AND v.x > '-Infinity'::float8 AND v.x < 'Infinity'::float8) AS sl,
        min(v.x) AS lo, max(v.x) AS hi
@@ -361,6 +394,27 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
  GROUP BY 1, 2, 3`;
 
   return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
+}
+
+/**
+ * The leaf partitions of `relation` (a quoted name) when it is a partitioned table and every
+ * leaf is a foreign table; null otherwise (a plain table, a view, or local partitions, which
+ * PostgreSQL aggregates in one scan well enough). Names come quoted from regclass output.
+ */
+export async function foreignPartitionsOf(client: PoolClient, relation: string): Promise<string[] | null> {
+  const res = await client.query<{ name: string; relkind: string }>(
+    `WITH RECURSIVE tree(oid) AS (
+       SELECT inhrelid FROM pg_catalog.pg_inherits
+        WHERE inhparent = $1::regclass AND (SELECT relkind FROM pg_catalog.pg_class WHERE oid = $1::regclass) = 'p'
+       UNION ALL SELECT i.inhrelid FROM pg_catalog.pg_inherits i JOIN tree t ON i.inhparent = t.oid)
+     SELECT c.oid::regclass::text AS name, c.relkind::text AS relkind
+       FROM tree t JOIN pg_catalog.pg_class c ON c.oid = t.oid
+      WHERE c.relkind NOT IN ('p', 'I')
+      ORDER BY c.oid`,
+    [relation],
+  );
+  if (res.rows.length === 0 || res.rows.some((r) => r.relkind !== 'f')) return null;
+  return res.rows.map((r) => r.name);
 }
 
 /**
@@ -385,7 +439,7 @@ export interface PushdownTimings {
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
 export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, timings?: PushdownTimings): Promise<DayAggregates> {
-  const q = buildPushdownQueries(config, plan, date, specs);
+  const q = buildPushdownQueries(config, plan, date, { ...specs, foreignPartitions: specs.foreignPartitions ?? (await foreignPartitionsOf(client, plan.relation)) });
   await preparePushdownSession(client);
   const t0 = performance.now();
 
