@@ -64,7 +64,10 @@ export interface SqlStatement {
 
 export interface PushdownQueries {
   listPass: SqlStatement;
+  /** Counts per feature and code; on foreign partitions also the sums, minima and maxima per code. */
   valuePass: SqlStatement;
+  /** Sums, minima and maxima of each numeric feature's finite values (null on foreign partitions, or without numeric features). */
+  sumPass: SqlStatement | null;
 }
 
 /** Exact counts of one numeric feature from the value pass. */
@@ -355,11 +358,11 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
-  const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
-  const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
   const partitions = specs.foreignPartitions ?? [];
   if (partitions.length > 0) {
+    // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+    const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
+    const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
     // Foreign partitions: one grouped statement per feature and partition, which postgres_fdw
     // sends to the partition's server whole (it pushes a GROUP BY down only for a single
     // foreign table, or for a partitioned one when the grouping holds the partition key; a
@@ -383,17 +386,42 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     const text = `SELECT f, b, c, sum(n) AS n, sum(s) AS s, sum(sl) AS sl, min(lo) AS lo, max(hi) AS hi
   FROM (${parts.join('\n        UNION ALL ')}) AS per_partition
  GROUP BY 1, 2, 3`;
-    return { listPass: { text: listPass, values: lp.values }, valuePass: { text, values: vp.values } };
+    return { listPass: { text: listPass, values: lp.values }, valuePass: { text, values: vp.values }, sumPass: null };
   }
-  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE abs(v.x) < ${largeAt}) AS s,
-       sum(v.x * ${scale}) FILTER (WHERE abs(v.x) >= ${largeAt} AND v.x > '-Infinity'::float8 AND v.x < 'Infinity'::float8) AS sl,
-       min(v.x) AS lo, max(v.x) AS hi
+  // One scan counts every (feature, code) pair, and only counts: the sums, minima and maxima
+  // of the finite values go to a one-row aggregate of their own (sumPass), which is cheaper
+  // than five aggregates per (feature, code) pair (measured: 1M rows x 50 features, 16 s and
+  // 2 s against about 30 s for the two in one statement, on a busy 2-core machine).
+  const hasText = vfeatures.some((fs) => fs.feature.kind === 'categorical');
+  const valuePass = `SELECT v.f, v.b, ${hasText ? 'v.c' : 'NULL::text AS c'}, count(*) AS n
   FROM ${plan.relation}
-       CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
+       CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[]${hasText ? `, ARRAY[${texts.join(', ')}]::text[]` : ''}) AS v(f, b${hasText ? ', c' : ''})
  WHERE ${plan.dateColumn} = ${vDate}
  GROUP BY 1, 2, 3`;
 
-  return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
+  // ---- sums, minima and maxima of the finite values, one row
+  const sp = new Params();
+  const sDate = sp.add(date, 'date');
+  const numericFeatures = config.features.map((f, i) => ({ f, i })).filter(({ f }) => f.kind !== 'categorical');
+  let sumPass: SqlStatement | null = null;
+  if (numericFeatures.length > 0) {
+    const xs = numericFeatures.map(({ f, i }) => featureSql(config, plan, f, i, sp).value);
+    // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+    const largeAt = sp.add(LARGE_MAGNITUDE, 'float8');
+    const scale = sp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+    const arr = (fn: (x: string) => string): string => `ARRAY[${xs.map(fn).join(', ')}]::float8[]`;
+    sumPass = {
+      text: `SELECT ${arr((x) => `sum(${x}) FILTER (WHERE abs(${x}) < ${largeAt})`)} AS s,
+       ${arr((x) => `sum(${x} * ${scale}) FILTER (WHERE abs(${x}) >= ${largeAt} AND ${finite(x)})`)} AS sl,
+       ${arr((x) => `min(${x}) FILTER (WHERE ${finite(x)})`)} AS lo,
+       ${arr((x) => `max(${x}) FILTER (WHERE ${finite(x)})`)} AS hi
+  FROM ${plan.relation}
+ WHERE ${plan.dateColumn} = ${sDate}`,
+      values: sp.values,
+    };
+  }
+
+  return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values }, sumPass };
 }
 
 /**
@@ -476,7 +504,8 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
   });
 
   const t1 = performance.now();
-  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s?: number | null; sl?: number | null; lo?: number | null; hi?: number | null }>(q.valuePass.text, q.valuePass.values);
+  const sumRes = q.sumPass === null ? null : await client.query<{ s: (number | null)[]; sl: (number | null)[]; lo: (number | null)[]; hi: (number | null)[] }>(q.sumPass.text, q.sumPass.values);
   if (timings !== undefined) {
     timings.listPassSeconds = (t1 - t0) / 1000;
     timings.valuePassSeconds = (performance.now() - t1) / 1000;
@@ -523,11 +552,20 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       a.sum.largeScaled += r.sl ?? 0;
       if (a.extreme !== undefined && d.beyond === -1) a.extreme.below += n;
       if (a.extreme !== undefined && d.beyond === 1) a.extreme.above += n;
-      if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
-      if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
+      if (r.lo != null && (a.min === null || r.lo < a.min)) a.min = r.lo;
+      if (r.hi != null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
     else if (d.kind === 'posInf') q.posInf += n;
     else q.negInf += n;
+  }
+  const sums = sumRes?.rows[0];
+  if (sums !== undefined) {
+    config.features.filter((f) => f.kind !== 'categorical').forEach((f, k) => {
+      const a = numeric[f.name]!;
+      a.sum = { small: sums.s[k] ?? 0, largeScaled: sums.sl[k] ?? 0 };
+      a.min = sums.lo[k] ?? null;
+      a.max = sums.hi[k] ?? null;
+    });
   }
   return { dataset, numeric, categorical, withinList };
 }

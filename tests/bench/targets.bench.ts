@@ -113,7 +113,7 @@ function cliRun(configPath: string, date: string, sourceUrl: string, storeUrl: s
       put('sort/profile', e['profileSeconds']);
     } else if (e['msg'] === 'day profiled in the database') {
       put('list statement', e['listPassSeconds']);
-      put('value statement', e['valuePassSeconds']);
+      put('value statements', e['valuePassSeconds']);
       put('ranking statement', e['rankingSeconds']);
       put('sample read', e['sampleSeconds']);
       put('sample profile', e['profileSeconds']);
