@@ -112,7 +112,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
     const tr = performance.now();
     const ranking = (await readRankingAggregates(client, deps.config, plan, [date], { association: deps.config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
     const ts = performance.now();
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(deps.config), featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength, totalRows: agg.dataset.rows });
     timings.rankingSeconds = (ts - tr) / 1000;
     timings.sampleSeconds = (performance.now() - ts) / 1000;
     return { agg, ranking, cols };

@@ -2,7 +2,7 @@
  * The `pushdown` engine: the day's statistics are computed inside PostgreSQL and only
  * aggregates come back (a few hundred rows at most, whatever the size of the day).
  *
- * Two aggregate statements run in the caller's REPEATABLE READ READ ONLY transaction:
+ * Three aggregate statements run in the caller's REPEATABLE READ READ ONLY transaction:
  *
  * - the list pass groups the day by list id and reduces each list to a few flags (size,
  *   duplicate items, position gaps, label counts, and per feature: judged / flat / rule
@@ -15,9 +15,18 @@
  *   and NaN have codes of their own, SQL null is a null code (jsonb type errors one more),
  *   and a finite value's code names its bin (thresholds that reproduce assignBin exactly:
  *   right-closed intervals, point masses) and whether it is out of range. Category values
- *   are counted too, and the sum / min / max of the values per code. This grouping is not
- *   on the list id, so on postgres_fdw partitions (PostgreSQL 15) it runs on the coordinator
- *   over the fetched columns.
+ *   are counted too;
+ * - the sum pass: the split sum, minimum and maximum of each numeric feature's finite values,
+ *   one row.
+ *
+ * On a partitioned table whose partitions are all foreign tables (postgres_fdw shards) the
+ * value and sum passes become one statement: per feature and partition a grouped query that
+ * postgres_fdw ships whole to the partition's server (counts, sums, minima and maxima per
+ * code), run concurrently by Async Append and merged on the coordinator. PostgreSQL 15's
+ * postgres_fdw pushes a GROUP BY down only for one foreign table, or for a partitioned table
+ * when the grouping holds the partition key (full partition-wise aggregation); never partial
+ * aggregates, GROUPING SETS or a join with a LATERAL unnest, which the one-scan value pass
+ * needs. Each shard then scans its rows once per feature, in exchange for sending kilobytes.
  *
  * SQL text is built from quoted identifiers only; dates, jsonb keys, ranges, tolerances
  * and bin thresholds are bound parameters (thresholds as float8[]).

@@ -191,6 +191,8 @@ export interface ReadDayOptions {
   featureCount: number;
   /** Category values are cut to this many characters (source.maxCategoryLength); default 200. */
   maxCategoryLength?: number;
+  /** The day's row count when the caller counted it in the same snapshot (the pushdown engine): saves a scan. */
+  totalRows?: number;
 }
 
 /** md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. */
@@ -204,8 +206,7 @@ function listHashExpression(listId: string): string {
  */
 export async function readDay(client: PoolClient, plan: SourcePlan, date: string, options: ReadDayOptions): Promise<DayColumns> {
   const where = `${plan.dateColumn} = $1::date`;
-  const countRes = await client.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where}`, [date]);
-  const totalRows = Number(countRes.rows[0]?.n ?? 0);
+  const totalRows = options.totalRows ?? Number((await client.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where}`, [date])).rows[0]?.n ?? 0);
   const sampled = totalRows > options.maxRows;
   const fraction = sampled ? options.maxRows / totalRows : 1;
   let rows = totalRows;
