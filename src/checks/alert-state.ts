@@ -11,8 +11,8 @@
 import type { Config } from '../config/index.ts';
 import { CHECK_KIND, type AlertRule, type Finding } from '../report/index.ts';
 
-export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule'>): string {
-  return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}`;
+export function findingKey(f: Pick<Finding, 'feature' | 'check' | 'rule' | 'slice'>): string {
+  return `${f.feature ?? ''}\u0000${f.check}\u0000${f.rule ?? ''}\u0000${f.slice ?? 'all'}`;
 }
 
 /**

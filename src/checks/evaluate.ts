@@ -28,7 +28,7 @@ import { distinctFinding } from './distinct.ts';
 import { extremeFinding } from './extremes.ts';
 import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
 
-type FindingDraft = Omit<Finding, 'alert'>;
+export type FindingDraft = Omit<Finding, 'alert'>;
 
 /**
  * How many bins a finding keeps as evidence, those that moved most first: every bin of a
@@ -548,6 +548,24 @@ export function snapshotMissingFinding(date: string, reason: string): FindingDra
 }
 
 /**
+ * Benjamini-Hochberg across a family of KS tests (a day's features; src/checks/slices.ts:
+ * every slice of a day): D decides the status, the adjusted p-value gates it (it can only
+ * turn a finding ok).
+ */
+export function gateKs(config: Config, family: readonly { draft: FindingDraft; p: number }[]): void {
+  if (family.length === 0) return;
+  const adjusted = benjaminiHochberg(family.map((k) => k.p));
+  family.forEach(({ draft }, i) => {
+    const adj = adjusted[i]!;
+    draft.evidence.adjustedPValue = adj;
+    const t = draft.thresholds as { warn: number; critical: number };
+    if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
+    draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; ${draft.evidence['learnedThreshold'] === undefined ? '' : 'learned '}warn >= ${fmt(t.warn)}, critical >= ${fmt(t.critical)}; adjusted p ${fmt(adj)})`;
+    if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
+  });
+}
+
+/**
  * All findings of one day, before alert hysteresis. `outcome` is the label outcome to judge
  * when labels lag (an older day re-read at run time); by default the day's own.
  */
@@ -563,18 +581,7 @@ export function evaluateDay(config: Config, baseline: BaselineProfile, current: 
     if (cur.kind === 'categorical') findings.push(...categoricalFindings(ctx, f, base as CategoricalProfile | undefined, cur));
     else findings.push(...numericFindings(ctx, f, base as NumericProfile | undefined, cur, ksQueue));
   }
-  // Benjamini-Hochberg across the day's KS tests; D decides, the adjusted p-value gates.
-  if (ksQueue.length > 0) {
-    const adjusted = benjaminiHochberg(ksQueue.map((k) => k.p));
-    ksQueue.forEach(({ draft }, i) => {
-      const adj = adjusted[i]!;
-      draft.evidence.adjustedPValue = adj;
-      const t = draft.thresholds as { warn: number; critical: number };
-      if (adj >= config.thresholds.ksAlpha) draft.status = 'ok';
-      draft.summary = `KS D ${fmt(draft.value)} (${draft.status}; ${draft.evidence['learnedThreshold'] === undefined ? '' : 'learned '}warn >= ${fmt(t.warn)}, critical >= ${fmt(t.critical)}; adjusted p ${fmt(adj)})`;
-      if (draft.evidence['ksMethod'] === 'binned') draft.summary += `; from ${String(draft.evidence['fineBins'])} fine bins, exact D at most ${fmt(draft.evidence['dUpperBound'] as number)}`;
-    });
-  }
+  gateKs(config, ksQueue);
   findings.push(...datasetFindings(ctx));
   if (ctx.hasBaseline) {
     findings.push(...associationFindings(config, baseline, current));

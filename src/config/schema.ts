@@ -303,6 +303,41 @@ const BaselineWindow = z.discriminatedUnion('type', [
 ]);
 export type BaselineWindow = z.infer<typeof BaselineWindow>;
 
+/** A list-level categorical column whose values are checked one by one. */
+const SegmentSchema = z.strictObject({
+  column: identifier,
+  /** The most frequent values of a day that get a slice of their own; the rest are pooled into one `other` slice. */
+  maxValues: positiveInt.max(50).default(10),
+  /** Fewest rows a value (or the pooled rest) needs on a day to be checked. */
+  minRows: positiveInt.default(1000),
+});
+
+/**
+ * Slices: row subsets of each day checked like the whole day (the top positions of every
+ * list, and the values of segment columns). Off unless listed.
+ */
+const SlicesSchema = z
+  .strictObject({
+    /** For each k, the rows at the first k positions of every list form a slice `top<k>`. */
+    topK: z
+      .array(positiveInt.max(1000))
+      .max(4)
+      .refine((ks) => new Set(ks).size === ks.length, 'lists a k twice')
+      .default([]),
+    /** The position of the first item of a list in source.columns.position: 1 (default) or 0. */
+    firstPosition: z.union([z.literal(0), z.literal(1)]).default(1),
+    segments: z
+      .array(SegmentSchema)
+      .max(4)
+      .refine((ss) => new Set(ss.map((s) => s.column)).size === ss.length, 'names a column twice')
+      .default([]),
+    /** Values kept per feature and slice in a slice's baseline (KS and bin edges). */
+    sampleSize: positiveInt.min(1000).max(1_000_000).default(10_000),
+  })
+  .prefault({});
+
+export type SlicesConfig = z.infer<typeof SlicesSchema>;
+
 export const ConfigSchema = z
   .strictObject({
     source: z.strictObject({
@@ -350,8 +385,17 @@ export const ConfigSchema = z
         bins: positiveInt.min(2).max(100).default(10),
         /** Fewest baseline days with data before drift checks run. */
         minDays: countOfRuns.default(1),
+        /**
+         * Another relation as the baseline, e.g. the training set the model was fitted on (same
+         * columns as source.table); its dates from..to (all when omitted) replace the window.
+         */
+        source: z
+          .strictObject({ table: qualifiedName, from: isoDate.optional(), to: isoDate.optional() })
+          .refine((s) => s.from === undefined || s.to === undefined || s.from <= s.to, { message: 'from must not be after to', path: ['to'] })
+          .optional(),
       })
       .prefault({}),
+    slices: SlicesSchema,
     thresholds: ThresholdsSchema,
     alerting: z
       .strictObject({

@@ -19,7 +19,7 @@
  * Neither ever appears in an error message: URLs are shown by origin, other text is redacted.
  */
 import { redactUrls } from '../config/index.ts';
-import type { Finding, Report } from '../report/index.ts';
+import { sliceOf, type Finding, type Report } from '../report/index.ts';
 import { alertNameFor, DEFAULT_RUNBOOK_URL, runbookUrl, severityFor } from './alerts.ts';
 
 /** The identifying labels of one pushed alert. */
@@ -29,6 +29,8 @@ export interface AlertLabels {
   check: string;
   feature?: string;
   rule?: string;
+  /** Slice of the day (config `slices`), on PlumblineSliceBroken only. */
+  slice?: string;
   [name: string]: string | undefined;
 }
 
@@ -103,7 +105,9 @@ export interface PushResult {
 function labelsOf(f: Finding): AlertLabels | null {
   if (!f.alert?.alerting) return null;
   const level = f.alert.level ?? (f.status === 'critical' ? 'critical' : 'warn');
-  const labels: AlertLabels = { alertname: alertNameFor(f.check), severity: severityFor(level), check: f.check };
+  const slice = sliceOf(f);
+  const labels: AlertLabels = { alertname: alertNameFor(f.check, slice), severity: severityFor(level), check: f.check };
+  if (slice !== 'all') labels.slice = slice;
   if (f.feature !== null) labels.feature = f.feature;
   if (f.rule !== null && f.rule !== undefined) labels.rule = f.rule;
   return labels;
@@ -141,14 +145,15 @@ function formatValue(v: number): string {
 }
 
 function annotationsFor(f: Finding, labels: AlertLabels, runbookBase: string, runDate: string): Record<string, string> {
-  const what = f.feature === null ? `dataset check ${f.check}` : `feature ${f.feature}, check ${f.check}${labels.rule ? ` (rule ${labels.rule})` : ''}`;
+  const where = labels.slice !== undefined ? `slice ${labels.slice}, ` : '';
+  const what = f.feature === null ? `dataset check ${f.check}` : `${where}feature ${f.feature}, check ${f.check}${labels.rule ? ` (rule ${labels.rule})` : ''}`;
   const level = labels.severity === 'page' ? 'critical' : 'warn';
   const summary =
     labels.alertname === 'PlumblineSnapshotMissing'
       ? `Snapshot ${runDate} is missing`
       : f.feature === null
         ? `Ranking dataset broken: ${f.check}`
-        : `Ranking feature ${f.feature}: ${f.check} alerting at ${level}`;
+        : `Ranking feature ${f.feature}${labels.slice !== undefined ? ` in slice ${labels.slice}` : ''}: ${f.check} alerting at ${level}`;
   const description =
     `Plumbline run for ${runDate}: ${what} is ${formatValue(f.value)}, alerting at ${level} ` +
     `after ${f.alert.consecutiveRuns} consecutive run(s) since ${f.alert.since ?? runDate}. ${f.summary}`.trim();

@@ -18,6 +18,9 @@ export const FINDING_ALERT_OF_KIND: Readonly<Record<CheckKind, string>> = {
 
 export const SNAPSHOT_MISSING_ALERT = 'PlumblineSnapshotMissing';
 
+/** Any per-feature finding of a slice of the day (config `slices`), whatever its check. */
+export const SLICE_ALERT = 'PlumblineSliceBroken';
+
 /** Alerts on the monitor's own health and on upstream freshness (rules only, never pushed). */
 export const HEALTH_ALERTS = [
   'PlumblineSnapshotStale',
@@ -29,10 +32,11 @@ export const HEALTH_ALERTS = [
 ] as const;
 
 /** Every alert name the shipped rules define. */
-export const ALL_ALERTS: readonly string[] = [...Object.values(FINDING_ALERT_OF_KIND), SNAPSHOT_MISSING_ALERT, ...HEALTH_ALERTS];
+export const ALL_ALERTS: readonly string[] = [...Object.values(FINDING_ALERT_OF_KIND), SLICE_ALERT, SNAPSHOT_MISSING_ALERT, ...HEALTH_ALERTS];
 
-/** The alert a finding of this check raises when it is alerting. */
-export function alertNameFor(check: CheckName): string {
+/** The alert a finding of this check (on this slice; default the whole day) raises when it is alerting. */
+export function alertNameFor(check: CheckName, slice = 'all'): string {
+  if (slice !== 'all') return SLICE_ALERT;
   if (check === 'snapshot_missing') return SNAPSHOT_MISSING_ALERT;
   return FINDING_ALERT_OF_KIND[CHECK_KIND[check]];
 }

@@ -11,7 +11,7 @@
  * full list, with meanings, is in deploy/METRICS.md.
  */
 import { Counter, Gauge, Registry, collectDefaultMetrics, openMetricsContentType, prometheusContentType, type OpenMetricsContentType } from 'prom-client';
-import { STATUS_LEVEL, type Finding, type Report } from '../report/index.ts';
+import { STATUS_LEVEL, sliceOf, type Finding, type Report } from '../report/index.ts';
 import type { RunStats } from '../store/index.ts';
 
 /**
@@ -54,6 +54,7 @@ export interface PlumblineMetricsOptions {
 }
 
 type FeatureCheckLabels = 'feature' | 'check' | 'rule';
+type SliceLabels = 'slice' | FeatureCheckLabels;
 type Labels = Partial<Record<FeatureCheckLabels, string>>;
 
 function epochSeconds(iso: string | null | undefined): number | null {
@@ -73,7 +74,8 @@ export function snapshotDateSeconds(date: string): number | null {
  *
  * Conventions (Prometheus naming rules): prefix `plumbline_`, base units, `_ratio` for
  * fractions, `_seconds` / `_timestamp_seconds` for time, `_total` for counters, labels only
- * `feature`, `check`, `rule` (and `version` on build_info). Metrics without a known value
+ * `feature`, `check`, `rule`, `slice` on the slice family (bounded by config `slices`) and
+ * `version` on build_info. Metrics without a known value
  * expose no sample rather than a made-up 0 (e.g. no last success before the first one).
  */
 export class PlumblineMetrics {
@@ -90,6 +92,9 @@ export class PlumblineMetrics {
   readonly #featureValue: Gauge<FeatureCheckLabels>;
   readonly #featureStatus: Gauge<FeatureCheckLabels>;
   readonly #featureAlerting: Gauge<FeatureCheckLabels>;
+  readonly #sliceValue: Gauge<SliceLabels>;
+  readonly #sliceStatus: Gauge<SliceLabels>;
+  readonly #sliceAlerting: Gauge<SliceLabels>;
   readonly #datasetValue: Gauge<'check'>;
   readonly #datasetStatus: Gauge<'check'>;
   readonly #datasetAlerting: Gauge<'check'>;
@@ -148,6 +153,12 @@ export class PlumblineMetrics {
     this.#featureStatus = gauge('plumbline_feature_check_status', 'Status of each per-feature check of the latest run: 0 ok, 1 warn, 2 critical.', fc);
     this.#featureAlerting = gauge('plumbline_feature_check_alerting', 'Alert state of each per-feature check after consecutive-run hysteresis: 0 not alerting, 1 alerting at warn, 2 alerting at critical.', fc);
 
+    // Per slice (top-k positions, segment values; config `slices`), from the latest run.
+    const sl = ['slice', 'feature', 'check', 'rule'] as const;
+    this.#sliceValue = gauge('plumbline_slice_check_value', 'Value of each per-feature check of a slice of the day (top positions, a segment value) in the latest run.', sl);
+    this.#sliceStatus = gauge('plumbline_slice_check_status', 'Status of each per-feature check of a slice of the day in the latest run: 0 ok, 1 warn, 2 critical.', sl);
+    this.#sliceAlerting = gauge('plumbline_slice_check_alerting', 'Alert state of each per-feature check of a slice after consecutive-run hysteresis: 0 not alerting, 1 alerting at warn, 2 alerting at critical.', sl);
+
     // Whole day, from the latest run.
     this.#datasetValue = gauge('plumbline_dataset_check_value', 'Value of each dataset-level check of the latest run.', ['check']);
     this.#datasetStatus = gauge('plumbline_dataset_check_status', 'Status of each dataset-level check of the latest run: 0 ok, 1 warn, 2 critical.', ['check']);
@@ -187,6 +198,9 @@ export class PlumblineMetrics {
       this.#featureValue,
       this.#featureStatus,
       this.#featureAlerting,
+      this.#sliceValue,
+      this.#sliceStatus,
+      this.#sliceAlerting,
       this.#datasetValue,
       this.#datasetStatus,
       this.#datasetAlerting,
@@ -228,7 +242,10 @@ export class PlumblineMetrics {
     }
     let snapshotMissing = report.current.rows === 0;
     for (const f of report.findings) {
-      if (f.feature === null) {
+      const slice = sliceOf(f);
+      if (slice !== 'all') {
+        if (f.feature !== null) this.#showSliceFinding(f, slice, f.feature);
+      } else if (f.feature === null) {
         this.#showDatasetFinding(f);
         if (f.check === 'snapshot_missing' && f.value !== 0) snapshotMissing = true;
       } else {
@@ -282,6 +299,14 @@ export class PlumblineMetrics {
       default:
         break;
     }
+  }
+
+  #showSliceFinding(f: Finding, slice: string, feature: string): void {
+    const labels: Partial<Record<SliceLabels, string>> = { slice, feature, check: f.check };
+    if (f.rule !== null && f.rule !== undefined) labels.rule = f.rule;
+    setIfNumber(this.#sliceValue, labels, f.value, true);
+    setIfNumber(this.#sliceStatus, labels, STATUS_LEVEL[f.status]);
+    setIfNumber(this.#sliceAlerting, labels, alertingLevel(f));
   }
 
   #showDatasetFinding(f: Finding): void {

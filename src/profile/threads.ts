@@ -101,3 +101,90 @@ export function threadedProfiler(threads: number = availableParallelism(), worke
     return indexes.map((fi) => results.get(fi)!);
   };
 }
+
+/** Worker threads kept for a while (one day's run): started once, reused by every profile they are given. */
+export interface ProfilerPool {
+  /** A profiler on this pool's threads; days of fewer than `minRows` rows stay on this thread. */
+  profiler(minRows?: number): NumericProfiler;
+  /** Stops the workers (a later profile starts new ones). */
+  close(): Promise<void>;
+}
+
+/**
+ * A pool of up to `threads` threads (default: the machine's cores), this one included. Starting
+ * a worker costs more than profiling a small row set, so a run that profiles several (a day and
+ * its slices, src/profile/slices.ts) starts its workers once. Each request settles exactly once,
+ * as runWorker's does; a worker that failed or exited is dropped and the next request starts
+ * another.
+ */
+export function profilerPool(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): ProfilerPool {
+  const workers: (Worker | undefined)[] = [];
+
+  function request(i: number, req: ProfileRequest): { done: Promise<NumericProfile[]>; stop(): void } {
+    const worker = (workers[i] ??= startWorker(workerUrl));
+    const drop = (): void => {
+      if (workers[i] === worker) workers[i] = undefined;
+      void worker.terminate();
+    };
+    const done = new Promise<NumericProfile[]>((resolve, reject) => {
+      let settled = false;
+      const settle = (ok: boolean, fn: () => void): void => {
+        if (settled) return;
+        settled = true;
+        worker.off('message', onMessage).off('messageerror', onMessageError).off('error', onError).off('exit', onExit);
+        if (!ok) drop();
+        fn();
+      };
+      const onMessage = (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }): void =>
+        settle(msg.ok, () => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
+      const onMessageError = (err: Error): void => settle(false, () => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err })));
+      const onError = (err: Error): void => settle(false, () => reject(new Error(`profile worker failed: ${err.message}`, { cause: err })));
+      const onExit = (code: number): void => settle(false, () => reject(new Error(`profile worker stopped (exit code ${code}) before it sent the profiles`)));
+      worker.on('message', onMessage).on('messageerror', onMessageError).on('error', onError).on('exit', onExit);
+      worker.postMessage(req);
+    });
+    return { done, stop: drop };
+  }
+
+  return {
+    profiler(minRows: number = PARALLEL_MIN_ROWS): NumericProfiler {
+      return async (cols, g, indexes, config, bins) => {
+        if (threads <= 1 || cols.rows < minRows || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
+        const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
+        indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
+        const remote = shares.slice(1).map((share, s) =>
+          request(s, {
+            lists: cols.lists,
+            grouping: g,
+            jobs: share.map((fi) => {
+              const feature = config.features[fi]!;
+              const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+              // The worker holds the shared column now; this thread lets go of it.
+              releaseColumn(cols, fi);
+              return job;
+            }),
+          }),
+        );
+        // Observed at once, as in threadedProfiler: a failing worker must not become an unhandled rejection.
+        const all = Promise.all(remote.map((r) => r.done));
+        all.catch(() => remote.forEach((r) => r.stop()));
+        let local: NumericProfile[];
+        try {
+          local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+        } catch (err) {
+          remote.forEach((r) => r.stop());
+          throw err;
+        }
+        const done = await all;
+        const results = new Map<number, NumericProfile>();
+        shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
+        shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
+        return indexes.map((fi) => results.get(fi)!);
+      };
+    },
+    async close(): Promise<void> {
+      const running = workers.splice(0).filter((w): w is Worker => w !== undefined);
+      await Promise.all(running.map((w) => w.terminate()));
+    },
+  };
+}

@@ -114,6 +114,17 @@ export interface DayProfile {
   features: Record<string, FeatureProfile>;
   /** Outcome from labels in served order, when a label column is configured. */
   outcome?: OutcomeCounts | null;
+  /** The day's slices (src/profile/slices.ts), in memory only: each is stored as a day profile of its own. */
+  slices?: SliceProfile[];
+  /** As stored: the names of the slices profiled with this day. */
+  sliceNames?: string[];
+}
+
+/** A slice's profile of one day. */
+export interface SliceProfile {
+  slice: string;
+  kind: 'top' | 'segment';
+  profile: DayProfile;
 }
 
 /** The profile of a baseline window, computed once per window and config fingerprint. */
@@ -137,6 +148,8 @@ export interface BaselineProfile {
   rankingDays?: RankingDay[];
   /** Day-to-day variation per feature; absent on baselines stored before it existed. */
   variation?: Record<string, FeatureVariation>;
+  /** Names of the slices seen on the window's days (each slice's baseline is stored apart). */
+  slices?: string[];
 }
 
 /**
@@ -209,6 +222,8 @@ export interface DayColumns {
   /** Per config feature index: missing codes, or null when nothing was missing. */
   missing: (Uint8Array | null)[];
   categorical: (CategoricalColumn | null)[];
+  /** Per segment column of config.slices.segments, its text value per row (absent when none are configured). */
+  segments?: CategoricalColumn[];
 }
 
 /** The position of a row whose position is null. */

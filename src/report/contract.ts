@@ -115,6 +115,14 @@ export interface BinEvidence {
 }
 
 export interface Finding {
+  /**
+   * The rows the finding is about (added in schema 1, optional for reports written before):
+   * `"all"` (the whole day; absent means the same), `"top<k>"` (the first k positions of every
+   * list), `"segment:<column>=<value>"` (one value of a segment column; the value cut to 64
+   * characters, control characters replaced) or `"segment:<column>:other"` (the values without
+   * a slice of their own, and nulls). Slice findings are on features only.
+   */
+  slice?: string;
   /** Feature name from the config, or null for a check on the whole day. */
   feature: string | null;
   check: CheckName;
@@ -180,6 +188,12 @@ export interface Report {
     /** Values kept per feature for KS and bin edges. */
     sampleSize: number;
     fingerprint: string;
+    /**
+     * Where the baseline's rows came from (optional; absent means a window): the snapshot
+     * table (source.table) over baseline.window, or another relation (e.g. the training set)
+     * over its dates, as configured in baseline.source.
+     */
+    source?: { type: 'window' } | { type: 'relation'; table: string; from: string | null; to: string | null };
   };
   current: {
     rows: number;
@@ -190,4 +204,23 @@ export interface Report {
     sampled: boolean;
   };
   findings: Finding[];
+  /**
+   * The slices evaluated this day (optional; absent when none are configured), with their
+   * rows and lists and the days of their own baseline.
+   */
+  slices?: SliceSummary[];
+}
+
+export interface SliceSummary {
+  slice: string;
+  kind: 'top' | 'segment';
+  rows: number;
+  lists: number;
+  /** Baseline days that had rows of this slice. */
+  baselineDays: number;
+}
+
+/** The slice of a finding: `"all"` when the field is absent (reports written before slices). */
+export function sliceOf(f: Pick<Finding, 'slice'>): string {
+  return f.slice ?? 'all';
 }

@@ -16,4 +16,6 @@ export {
   foreignPartitionsOf,
   type ValueCoding,
 } from './pushdown.ts';
+export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';
+export type { RowFilter } from './pushdown.ts';
 export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';

@@ -27,6 +27,8 @@ export interface SourcePlan {
   decoders: Decoder[];
   hasLabel: boolean;
   features: FeaturePlan[];
+  /** Segment columns of config.slices.segments, read as text after the features (in that order). */
+  segments: { column: string; expression: string }[];
 }
 
 const NUMERIC_TYPES = new Set(['double precision', 'real', 'numeric', 'integer', 'bigint', 'smallint', 'boolean']);
@@ -109,6 +111,10 @@ export async function planSource(client: PoolClient, config: Config): Promise<So
       problems.push(`${path}: column "${where.column}" is ${type}; a ${f.kind} feature needs a number or boolean column`);
     }
   });
+  const segments: SourcePlan['segments'] = [];
+  config.slices.segments.forEach((seg, i) => {
+    if (check(seg.column, `slices.segments[${i}].column`) !== undefined) segments.push({ column: seg.column, expression: `(${quoteIdent(seg.column)})::text` });
+  });
   if (problems.length > 0) throw new ConfigError(`the source does not match the config (${problems.length} problem${problems.length === 1 ? '' : 's'})`, problems);
 
   const selectList = [`(${quoteIdent(cols.listId)})::text`, `(${quoteIdent(cols.itemId)})::text`, `(${quoteIdent(cols.position)})::int4`];
@@ -121,6 +127,10 @@ export async function planSource(client: PoolClient, config: Config): Promise<So
     selectList.push(fp.expression);
     decoders.push(fp.decoder);
   }
+  for (const seg of segments) {
+    selectList.push(seg.expression);
+    decoders.push('text');
+  }
   return {
     relation,
     dateColumn: quoteIdent(cols.snapshotDate),
@@ -129,6 +139,7 @@ export async function planSource(client: PoolClient, config: Config): Promise<So
     decoders,
     hasLabel: cols.label !== undefined,
     features,
+    segments,
   };
 }
 

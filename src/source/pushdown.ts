@@ -271,8 +271,14 @@ function countingSpec(specs: PushdownSpecs, name: string): BinSpec | undefined {
   return specs.fineBins?.[name] ?? specs.bins?.[name];
 }
 
+/**
+ * An extra row condition for both statements (a slice of the day, src/source/slice-sql.ts);
+ * `bind` adds a parameter and returns its placeholder.
+ */
+export type RowFilter = (bind: (value: unknown, cast: string) => string) => string;
+
 /** Builds the two statements for one day (exported so tests can EXPLAIN exactly what runs). */
-export function buildPushdownQueries(config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs): PushdownQueries {
+export function buildPushdownQueries(config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter): PushdownQueries {
   if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
   const cols = config.source.columns;
   const listId = quoteIdent(cols.listId);
@@ -328,6 +334,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     wlNames.push(`w${i}`);
   });
   const sizeCap = lp.add(LIST_SIZE_BINS, 'int8');
+  const listFilter = filter === undefined ? '' : ` AND (${filter((v, c) => lp.add(v, c))})`;
   const wl = wlNames.length === 0 ? `'{}'::int8[]` : `ARRAY[${wlNames.map((w) => `sum(${w} & 1), sum((${w} >> 1) & 1), sum(${w} >> 2)`).join(', ')}]::int8[]`;
   const listPass = `SELECT nl, least(n, ${sizeCap}) AS size, count(*) AS lists, sum(n) AS rows, sum(ni) AS ni,
        count(*) FILTER (WHERE dup) AS dup, count(*) FILTER (WHERE gap) AS gap,
@@ -335,7 +342,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
        ${wl} AS wl
   FROM (SELECT ${inner.join(',\n               ')}
           FROM ${plan.relation}
-         WHERE ${plan.dateColumn} = ${dateParam}
+         WHERE ${plan.dateColumn} = ${dateParam}${listFilter}
          GROUP BY ${listId}) AS per_list
  GROUP BY 1, 2`;
 
@@ -378,10 +385,11 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // LATERAL unnest or GROUPING SETS it never ships). Async Append runs the shards' parts
     // concurrently; the small per-partition results are merged here.
     const parts: string[] = [];
+    const rowFilter = filter === undefined ? '' : ` AND (${filter((v, c) => vp.add(v, c))})`;
     const fin = (x: string): string => `${x} > '-Infinity'::float8 AND ${x} < 'Infinity'::float8`;
     vfeatures.forEach((fs, i) => {
       for (const rel of partitions) {
-        const from = `FROM ${rel} WHERE ${plan.dateColumn} = ${vDate}`;
+        const from = `FROM ${rel} WHERE ${plan.dateColumn} = ${vDate}${rowFilter}`;
         if (fs.feature.kind === 'categorical') {
           parts.push(`SELECT ${i}::int4 AS f, NULL::int4 AS b, ${texts[i]} AS c, count(*) AS n, NULL::float8 AS s, NULL::float8 AS sl, NULL::float8 AS lo, NULL::float8 AS hi ${from} GROUP BY 3`);
           continue;
@@ -405,7 +413,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
   const valuePass = `SELECT v.f, v.b, ${hasText ? 'v.c' : 'NULL::text AS c'}, count(*) AS n
   FROM ${plan.relation}
        CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[]${hasText ? `, ARRAY[${texts.join(', ')}]::text[]` : ''}) AS v(f, b${hasText ? ', c' : ''})
- WHERE ${plan.dateColumn} = ${vDate}
+ WHERE ${plan.dateColumn} = ${vDate}${filter === undefined ? '' : ` AND (${filter((v, c) => vp.add(v, c))})`}
  GROUP BY 1, 2, 3`;
 
   // ---- sums, minima and maxima of the finite values, one row
@@ -425,7 +433,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
        ${arr((x) => `min(${x}) FILTER (WHERE ${finite(x)})`)} AS lo,
        ${arr((x) => `max(${x}) FILTER (WHERE ${finite(x)})`)} AS hi
   FROM ${plan.relation}
- WHERE ${plan.dateColumn} = ${sDate}`,
+ WHERE ${plan.dateColumn} = ${sDate}${filter === undefined ? '' : ` AND (${filter((v, c) => sp.add(v, c))})`}`,
       values: sp.values,
     };
   }
@@ -475,8 +483,8 @@ export interface PushdownTimings {
  * Runs both aggregate statements for one day. `client` must be inside a read-only
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
-export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, timings?: PushdownTimings): Promise<DayAggregates> {
-  const q = buildPushdownQueries(config, plan, date, { ...specs, foreignPartitions: specs.foreignPartitions ?? (await foreignPartitionsOf(client, plan.relation)) });
+export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter, timings?: PushdownTimings): Promise<DayAggregates> {
+  const q = buildPushdownQueries(config, plan, date, { ...specs, foreignPartitions: specs.foreignPartitions ?? (await foreignPartitionsOf(client, plan.relation)) }, filter);
   await preparePushdownSession(client);
   const t0 = performance.now();
 

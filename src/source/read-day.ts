@@ -54,12 +54,14 @@ const enum Col {
   Float8,
   Json,
   Text,
+  Segment,
 }
 
 class DaySink implements TupleSink {
   row = 0;
   readonly listIds = new Map<number, number>();
   readonly categoryCodes: (Map<string, number> | null)[];
+  readonly segmentCodes: Map<string, number>[];
   /** Per COPY column: what it is, and for features the config feature index. */
   private readonly kind: Col[];
   private readonly feature: number[];
@@ -79,7 +81,12 @@ class DaySink implements TupleSink {
       this.kind.push(f.decoder === 'float8' ? Col.Float8 : f.decoder === 'jsontext' ? Col.Json : Col.Text);
       this.feature.push(f.index);
     }
+    plan.segments.forEach((_, s) => {
+      this.kind.push(Col.Segment);
+      this.feature.push(s);
+    });
     this.categoryCodes = out.categorical.map((c) => (c === null ? null : new Map()));
+    this.segmentCodes = (out.segments ?? []).map(() => new Map());
   }
 
   /** The fast path: features read as float8 are decoded inline; the rest go through field(). */
@@ -167,6 +174,24 @@ class DaySink implements TupleSink {
         cat.codes[row] = code;
         return;
       }
+      case Col.Segment: {
+        const s = this.feature[column]!;
+        const seg = this.out.segments![s]!;
+        if (isNull) {
+          seg.codes[row] = -1;
+          return;
+        }
+        const value = buf.toString('utf8', start, start + length);
+        const codes = this.segmentCodes[s]!;
+        let code = codes.get(value);
+        if (code === undefined) {
+          code = seg.dictionary.length;
+          codes.set(value, code);
+          seg.dictionary.push(value);
+        }
+        seg.codes[row] = code;
+        return;
+      }
     }
   }
 
@@ -231,6 +256,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
     numeric: Array.from({ length: options.featureCount }, () => null),
     missing: Array.from({ length: options.featureCount }, () => null),
     categorical: Array.from({ length: options.featureCount }, () => null),
+    ...(plan.segments.length > 0 ? { segments: plan.segments.map(() => ({ codes: new Int32Array(rows), dictionary: [] })) } : {}),
   };
   for (const f of plan.features) {
     if (f.decoder === 'text') out.categorical[f.index] = { codes: new Int32Array(rows), dictionary: [] };

@@ -2,7 +2,7 @@
  * The page of one feature on one date: where its distribution moved, how its drift and
  * within-list checks went over the stored days, and every finding with its evidence.
  */
-import { STATUS_LEVEL, worstStatus, type AppliedThresholds, type BinEvidence, type Finding, type Report } from '../report/index.ts';
+import { STATUS_LEVEL, sliceOf, worstStatus, type AppliedThresholds, type BinEvidence, type Finding, type Report } from '../report/index.ts';
 import { binChart, lineChart, orderBins, type ChartLine, type ChartPoint } from './charts.ts';
 import { checkInfo, describeThresholds, evidenceLabel, formatUnit, formatValue, num, pct } from './format.ts';
 import { html, type SafeHtml } from './html.ts';
@@ -139,12 +139,15 @@ function findingCard(f: Finding): SafeHtml {
   const info = checkInfo(f.check);
   const status = statusOf(f);
   const score = info.increase && Number.isFinite(f.score) && f.score !== f.value ? html`<dt>rise over baseline</dt><dd>${formatUnit(info.unit, f.score)}</dd>` : null;
-  return html`<article class="finding f-${status}"><h3>${info.label}${f.rule === null || f.rule === undefined ? null : html` <span class="muted">(rule ${f.rule})</span>`} <code class="muted">${f.check}</code> ${badge(status)}${alertTag(f)}</h3><p class="summary">${f.summary}</p>${info.about === '' ? null : html`<p class="muted small">${info.about}.</p>`}<dl class="ev"><dt>value</dt><dd>${formatValue(f.check, f.value)}</dd>${score}<dt>judged by</dt><dd>${describeThresholds(f.check, f.thresholds)}</dd><dt>alert</dt><dd>${alertText(f)}</dd>${evidenceEntries(f)}</dl></article>`;
+  const slice = sliceOf(f);
+  return html`<article class="finding f-${status}"><h3>${slice === 'all' ? null : html`<span class="slice">${slice}</span> `}${info.label}${f.rule === null || f.rule === undefined ? null : html` <span class="muted">(rule ${f.rule})</span>`} <code class="muted">${f.check}</code> ${badge(status)}${alertTag(f)}</h3><p class="summary">${f.summary}</p>${info.about === '' ? null : html`<p class="muted small">${info.about}.</p>`}<dl class="ev"><dt>value</dt><dd>${formatValue(f.check, f.value)}</dd>${score}<dt>judged by</dt><dd>${describeThresholds(f.check, f.thresholds)}</dd><dt>alert</dt><dd>${alertText(f)}</dd>${evidenceEntries(f)}</dl></article>`;
 }
 
 export function renderFeature(input: FeaturePageInput): StatusPageResult {
   const { report, feature } = input;
-  const findings = report.findings.filter((f) => f.feature === feature);
+  // The whole day's findings; those of the slices (config `slices`) are listed at the end, each titled with its slice.
+  const everyFinding = report.findings.filter((f) => f.feature === feature);
+  const findings = everyFinding.filter((f) => sliceOf(f) === 'all');
   const worst = worstStatus(findings.map(statusOf));
   const alerting = findings.filter(isAlerting).length;
   const date = report.runDate;
@@ -171,11 +174,20 @@ export function renderFeature(input: FeaturePageInput): StatusPageResult {
   const all = html`<section class="card" aria-labelledby="all-h"><h2 id="all-h">Every finding of ${feature} on ${date}</h2><div class="findings">${[...findings]
     .sort((a, b) => STATUS_LEVEL[statusOf(b)] - STATUS_LEVEL[statusOf(a)])
     .map(findingCard)}</div></section>`;
+  const sliced = everyFinding.filter((f) => sliceOf(f) !== 'all' && statusOf(f) !== 'ok');
+  const slices =
+    everyFinding.length === findings.length
+      ? null
+      : html`<section class="card" aria-labelledby="slices-h"><h2 id="slices-h">Slices of ${date}: findings not ok</h2>${
+          sliced.length === 0
+            ? html`<p class="muted">Every check of ${feature} is ok in every slice.</p>`
+            : html`<div class="findings">${[...sliced].sort((a, b) => STATUS_LEVEL[statusOf(b)] - STATUS_LEVEL[statusOf(a)]).map(findingCard)}</div>`
+        }</section>`;
 
   return shell({
     heading: `${feature} on ${date}: ${statusText(worst)}`,
     siteTitle: input.siteTitle,
-    body: html`${head}${distributionSection(report, feature, findingOf(findings, 'psi'))}${driftSection}${withinSection}${all}`,
+    body: html`${head}${distributionSection(report, feature, findingOf(findings, 'psi'))}${driftSection}${withinSection}${all}${slices}`,
     home: overviewHref(date),
     json: jsonHref(date),
   });

@@ -63,6 +63,8 @@ ${statusRules}
 .seg a{padding:4px 14px;text-decoration:none;color:var(--ink);font-size:.9rem}
 .seg a+a{border-left:1px solid #b9c3cd}
 .seg a[aria-current]{background:#1e2b38;color:#fff}
+.seg.slices{display:flex;flex-wrap:wrap;width:fit-content;max-width:100%;margin:0 0 12px}
+.slice{font-size:.8rem;padding:0 6px;border:1px solid var(--line);border-radius:4px;font-weight:normal}
 .dates{display:flex;flex-wrap:wrap;gap:6px;margin:0;padding:0;list-style:none}
 .spacer{flex:1}
 .dates a,.dates span{display:inline-block;padding:2px 9px;border:1px solid var(--line);border-radius:6px;font-size:.84rem;text-decoration:none;font-variant-numeric:tabular-nums}

@@ -2,7 +2,7 @@
  * The overview of one run: verdict, a feature-by-check grid, the whole-day checks, and
  * navigation between stored dates.
  */
-import { DATASET_CHECKS, FEATURE_CHECKS, STATUS_LEVEL, worstStatus, type Finding, type Report, type Status } from '../report/index.ts';
+import { DATASET_CHECKS, FEATURE_CHECKS, STATUS_LEVEL, sliceOf, worstStatus, type Finding, type Report, type Status } from '../report/index.ts';
 import { NOT_APPLICABLE, STATUS_STYLE, checkInfo, describeThresholds, formatValue, isStatus, num, pct, timestamp } from './format.ts';
 import { html, type SafeHtml } from './html.ts';
 import { badge, shell, type StatusPageResult } from './layout.ts';
@@ -14,6 +14,8 @@ export interface OverviewInput {
   dates: string[] | null;
   problemsOnly: boolean;
   siteTitle: string | undefined;
+  /** The slice whose feature findings the grid shows: 'all' (the whole day, default) or one of report.slices. */
+  slice?: string;
 }
 
 /** A finding's status, read defensively (reports come from storage and may be older). */
@@ -32,11 +34,11 @@ interface FeatureRow {
   alerting: number;
 }
 
-/** Features in report order, each with its findings. */
-export function featureRows(report: Report): FeatureRow[] {
+/** Features in report order, each with its findings on one slice (default: the whole day). */
+export function featureRows(report: Report, slice = 'all'): FeatureRow[] {
   const byName = new Map<string, Finding[]>();
   for (const f of report.findings) {
-    if (f.feature === null || f.feature === undefined) continue;
+    if (f.feature === null || f.feature === undefined || sliceOf(f) !== slice) continue;
     const list = byName.get(f.feature);
     if (list === undefined) byName.set(f.feature, [f]);
     else list.push(f);
@@ -84,11 +86,26 @@ function gridCell(findings: Finding[]): SafeHtml {
     (f) =>
       html`<span class="st">${statusText(statusOf(f))}</span><span class="v">${formatValue(f.check, f.value)}</span>${learnedTag(f)}${f.rule === null || f.rule === undefined ? null : html`<span class="r">${f.rule}</span>`}${alertTag(f) === null ? null : html` ${alertTag(f)}`}`,
   );
-  const title = sorted.filter((f) => statusOf(f) !== 'ok').map((f) => f.summary).join('\n');
+  const title = sorted
+    .filter((f) => statusOf(f) !== 'ok')
+    .map((f) => (sliceOf(f) === 'all' ? f.summary : `[${sliceOf(f)}] ${f.summary}`))
+    .join('\n');
   return html`<td class="c s-${worst}"${title === '' ? null : html` title="${title}"`}>${parts}</td>`;
 }
 
-function featureGrid(report: Report, rows: FeatureRow[], problemsOnly: boolean): SafeHtml {
+/** Links to the whole day and each slice of the run, each with its worst status; null without slices. */
+function sliceSelector(report: Report, slice: string, problemsOnly: boolean): SafeHtml | null {
+  const slices = report.slices ?? [];
+  if (slices.length === 0) return null;
+  const worst = (name: string): Status => worstStatus(report.findings.filter((f) => f.feature !== null && sliceOf(f) === name).map(statusOf));
+  const link = (name: string, label: string, detail: string): SafeHtml => {
+    const w = worst(name);
+    return html`<a href="${overviewHref(report.runDate, problemsOnly, name)}" class="s-${w}" title="${detail}"${name === slice ? html` aria-current="page"` : null}>${STATUS_STYLE[w].symbol} ${label}</a>`;
+  };
+  return html`<div class="seg slices" role="group" aria-label="Which rows to show">${link('all', 'Whole day', `${num(report.current.rows)} rows`)}${slices.map((s) => link(s.slice, s.slice, `${num(s.rows)} rows in ${num(s.lists)} lists; baseline ${s.baselineDays} days`))}</div>`;
+}
+
+function featureGrid(report: Report, rows: FeatureRow[], problemsOnly: boolean, slice = 'all'): SafeHtml {
   const cols = columns(rows);
   const shown = (problemsOnly ? rows.filter((r) => r.worst !== 'ok') : rows)
     .map((r, i) => ({ r, i }))
@@ -96,10 +113,10 @@ function featureGrid(report: Report, rows: FeatureRow[], problemsOnly: boolean):
     .sort((a, b) => STATUS_LEVEL[b.r.worst] - STATUS_LEVEL[a.r.worst] || b.r.alerting - a.r.alerting || a.i - b.i)
     .map((x) => x.r);
   const problems = rows.filter((r) => r.worst !== 'ok').length;
-  const filter = html`<div class="seg" role="group" aria-label="Which features to show"><a href="${overviewHref(report.runDate)}"${problemsOnly ? null : html` aria-current="page"`}>All features (${rows.length})</a><a href="${overviewHref(report.runDate, true)}"${problemsOnly ? html` aria-current="page"` : null}>Only problems (${problems})</a></div>`;
+  const filter = html`<div class="seg" role="group" aria-label="Which features to show"><a href="${overviewHref(report.runDate, false, slice)}"${problemsOnly ? null : html` aria-current="page"`}>All features (${rows.length})</a><a href="${overviewHref(report.runDate, true, slice)}"${problemsOnly ? html` aria-current="page"` : null}>Only problems (${problems})</a></div>`;
   const hidden = rows.length - shown.length;
   const note = problemsOnly && hidden > 0 ? html`<span class="muted small">${hidden} feature${hidden === 1 ? '' : 's'} with every check ok hidden</span>` : null;
-  if (rows.length === 0) return html`<section class="card" aria-labelledby="features-h"><h2 id="features-h">Features</h2><p class="muted">This run has no feature findings.</p></section>`;
+  if (rows.length === 0) return html`<section class="card" aria-labelledby="features-h"><h2 id="features-h">Features</h2>${sliceSelector(report, slice, problemsOnly)}<p class="muted">This run has no feature findings${slice === 'all' ? '' : ` in slice ${slice}`}.</p></section>`;
   const head = html`<tr><th scope="col">Feature</th><th scope="col">Worst</th>${cols.map((c) => html`<th scope="col" title="${`${c}: ${checkInfo(c).about}`}">${checkInfo(c).label}</th>`)}</tr>`;
   const body = shown.map((r) => {
     const byCheck = new Map<string, Finding[]>();
@@ -111,7 +128,9 @@ function featureGrid(report: Report, rows: FeatureRow[], problemsOnly: boolean):
       ? html`<p class="muted">No feature has a problem on ${report.runDate}.</p>`
       : html`<div class="scroll"><table class="grid"><caption class="vh">Status of each check for each feature on ${report.runDate}</caption><thead>${head}</thead><tbody>${body}</tbody></table></div>`;
   const legend = html`<ul class="legend" aria-label="Legend">${(['critical', 'warn', 'ok'] as const).map((s) => html`<li><span class="pill s-${s}">${statusText(s)}</span></li>`)}<li><span class="na">${NOT_APPLICABLE.symbol}</span> ${NOT_APPLICABLE.label}</li><li><span class="alert">alerting</span> held long enough to page</li><li>Percentages are shares of rows or lists; thresholds of ratio checks apply to the rise over baseline.</li></ul>`;
-  return html`<section class="card" aria-labelledby="features-h"><div class="row"><h2 id="features-h" style="margin:0">Features</h2>${filter}${note}</div>${table}${legend}</section>`;
+  const selector = sliceSelector(report, slice, problemsOnly);
+  const heading = slice === 'all' ? (selector === null ? 'Features' : 'Features: whole day') : `Features: slice ${slice}`;
+  return html`<section class="card" aria-labelledby="features-h"><div class="row"><h2 id="features-h" style="margin:0">${heading}</h2>${filter}${note}</div>${selector}${table}${legend}</section>`;
 }
 
 /** How a dataset finding's evidence.baseline / evidence.current read. */
@@ -165,16 +184,18 @@ function dateNav(report: Report, dates: string[] | null, problemsOnly: boolean):
 export function renderOverview(input: OverviewInput): StatusPageResult {
   const { report, problemsOnly } = input;
   const status = isStatus(report.status) ? report.status : worstStatus(report.findings.map(statusOf));
-  const rows = featureRows(report);
+  const slice = input.slice ?? 'all';
+  const rows = featureRows(report, slice);
   const critical = rows.filter((r) => r.worst === 'critical').length;
   const warn = rows.filter((r) => r.worst === 'warn').length;
   const alerting = report.findings.filter(isAlerting).length;
   const b = report.baseline;
-  const window = b?.window === undefined ? 'n/a' : `${b.window.type} ${b.window.from} → ${b.window.to}`;
+  const window =
+    b?.window === undefined ? 'n/a' : b.source?.type === 'relation' ? `relation ${b.source.table}, ${b.window.from} → ${b.window.to}` : `${b.window.type} ${b.window.from} → ${b.window.to}`;
   const head = html`<section class="card" aria-labelledby="run-h"><h1 id="run-h">Run of ${report.runDate} ${badge(status)}</h1><p class="muted">Finished ${timestamp(report.finishedAt)} · baseline ${window} (${b?.days?.length ?? 0} days with data) · <a href="${jsonHref(report.runDate)}">JSON report</a></p><ul class="facts"><li><b>${rows.length}</b><span>features checked</span></li><li><b>${critical}</b><span>${STATUS_STYLE.critical.symbol} critical features</span></li><li><b>${warn}</b><span>${STATUS_STYLE.warn.symbol} warn features</span></li><li><b>${alerting}</b><span>findings alerting</span></li><li><b>${report.findings.length}</b><span>checks run</span></li></ul></section>`;
-  const body = html`${head}${dateNav(report, input.dates, problemsOnly)}${featureGrid(report, rows, problemsOnly)}${datasetSection(report)}`;
+  const body = html`${head}${dateNav(report, input.dates, problemsOnly)}${featureGrid(report, rows, problemsOnly, slice)}${datasetSection(report)}`;
   return shell({
-    heading: `${problemsOnly ? 'Problems' : 'Overview'} ${report.runDate}: ${statusText(status)}`,
+    heading: `${problemsOnly ? 'Problems' : 'Overview'} ${report.runDate}${slice === 'all' ? '' : ` (${slice})`}: ${statusText(status)}`,
     siteTitle: input.siteTitle,
     body,
     home: overviewHref(report.runDate),

@@ -3,7 +3,7 @@
  * `/feature/{name}` (`?date=`). Everything is rendered on the server from stored reports;
  * the pages run no script and load nothing from elsewhere.
  */
-import type { Report } from '../report/index.ts';
+import { sliceOf, type Report } from '../report/index.ts';
 import type { ChartPoint } from './charts.ts';
 import { CHARTED_CHECKS, renderFeature, type ChartedCheck } from './feature.ts';
 import { addDays, isCalendarDate } from './format.ts';
@@ -77,7 +77,10 @@ export function createStatusPage(deps: StatusPageDeps): StatusPageHandler {
           body: html`<section class="card"><h1>No run stored yet</h1><p>Plumbline has not finished a run against this store. The first scheduled run, a manual run or a back-fill will show up here.</p></section>`,
         });
       }
-      return renderOverview({ report, dates: await nearbyDates(report.runDate), problemsOnly, siteTitle });
+      // A slice the run did not evaluate shows the whole day (the default view).
+      const wanted = query.get('slice');
+      const slice = wanted !== null && (report.slices ?? []).some((s) => s.slice === wanted) ? wanted : 'all';
+      return renderOverview({ report, dates: await nearbyDates(report.runDate), problemsOnly, siteTitle, slice });
     }
 
     if (path.startsWith(FEATURE_PREFIX)) {
@@ -94,7 +97,7 @@ export function createStatusPage(deps: StatusPageDeps): StatusPageHandler {
         const list = names.length === 0 ? null : html`<br>Features in that run: ${names.map((n, i) => html`${i > 0 ? ', ' : ''}<a href="${featureHref(n, report.runDate)}">${n}</a>`)}.`;
         return errorPage(siteTitle, 404, 'Feature not found', html`The run of ${report.runDate} has no finding for a feature of that name.${list}`);
       }
-      const wanted = CHARTED_CHECKS.map((check) => ({ check, finding: report.findings.find((f) => f.feature === feature && f.check === check) })).filter(
+      const wanted = CHARTED_CHECKS.map((check) => ({ check, finding: report.findings.find((f) => f.feature === feature && f.check === check && sliceOf(f) === 'all') })).filter(
         (x) => x.finding !== undefined,
       );
       const loaded = await Promise.all(

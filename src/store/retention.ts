@@ -78,10 +78,11 @@ export async function prune(pool: Pool, schema: string, policy: RetentionPolicy,
            AND NOT (snapshot_date BETWEEN coalesce($3::date, 'infinity') AND coalesce($4::date, '-infinity'))`,
         [today, policy.dayProfileDays, keep?.from ?? null, keep?.to ?? null],
       );
-      // Samples go with their baseline (ON DELETE CASCADE).
+      // Samples go with their baseline (ON DELETE CASCADE). A slice's baseline (`<fingerprint>/<slice>`)
+      // is kept with the whole day's.
       const baselines = await client.query(
         `DELETE FROM ${s}.baselines
-          WHERE fingerprint NOT IN (
+          WHERE split_part(fingerprint, '/', 1) NOT IN (
                   SELECT baseline_fingerprint FROM ${runs}
                    WHERE outcome = 'success' AND baseline_fingerprint IS NOT NULL
                      AND run_date IN (SELECT DISTINCT run_date FROM ${runs} WHERE outcome = 'success' ORDER BY run_date DESC LIMIT $1))

@@ -14,7 +14,7 @@
 import { advisoryXactLock, quoteIdent, withReadOnlyTransaction, withTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { StoreError } from '../errors.ts';
 import type { BaselineProfile, DayProfile, FeatureProfile } from '../profile/index.ts';
-import type { CheckName, Finding, Report, Status } from '../report/index.ts';
+import { sliceOf, type CheckName, type Finding, type Report, type Status } from '../report/index.ts';
 import type { WithinListRule } from '../config/index.ts';
 import { bytesToFloat64, decodeJson, encodeJson, float64ToBytes } from './codec.ts';
 import { DayProfileStore } from './day-profiles.ts';
@@ -45,6 +45,10 @@ export interface RunArtefacts {
   profileFingerprint: string;
   dayProfiles: readonly DayProfile[];
   baseline: BaselineProfile | null;
+  /** Day profiles under fingerprints of their own: slices (`<fingerprint>/<slice>`), and the days of a baseline relation. */
+  moreDayProfiles?: readonly { fingerprint: string; profile: DayProfile }[];
+  /** More baselines the run merged: its slices' (`<baseline fingerprint>/<slice>`). */
+  moreBaselines?: readonly BaselineProfile[];
 }
 
 export interface RunStats {
@@ -64,6 +68,8 @@ export interface RunStats {
 }
 
 export interface HistoryQuery {
+  /** Default 'all' (the whole day). */
+  slice?: string;
   feature: string | null;
   check: string;
   /** undefined: any rule; null: findings without a rule. */
@@ -79,6 +85,7 @@ export interface HistoryPoint {
 }
 
 export interface AlertStateEntry {
+  slice: string;
   feature: string | null;
   check: CheckName;
   rule: WithinListRule | null;
@@ -94,6 +101,7 @@ export interface AlertStateEntry {
 
 interface FindingRow {
   run_date: string;
+  slice: string;
   feature: string | null;
   check_name: string;
   rule: string | null;
@@ -110,7 +118,7 @@ interface FindingRow {
   evidence: Finding['evidence'];
 }
 
-const FINDING_COLUMNS = `run_date::text AS run_date, feature, check_name, rule, value, score, status, alerting, alert_level,
+const FINDING_COLUMNS = `run_date::text AS run_date, slice, feature, check_name, rule, value, score, status, alerting, alert_level,
   consecutive_runs, consecutive_critical, alerting_since::text AS alerting_since, thresholds, summary, evidence`;
 
 export class Store {
@@ -172,13 +180,17 @@ export class Store {
     const duration = durationSeconds(report.startedAt, report.finishedAt);
     const f = report.findings;
     const baseline = artefacts !== undefined && artefacts.baseline !== null ? encodeBaseline(artefacts.baseline) : null;
+    const more = (artefacts?.moreBaselines ?? []).map(encodeBaseline);
     await wrapped(`saving the run of ${report.runDate} failed`, () =>
       withTransaction(this.pool, async (client) => {
         // Serialise writers of this store, so "is this the newest date?" cannot race.
         await advisoryXactLock(client, `store-write:${this.schema}`);
         if (artefacts !== undefined) {
           for (const day of artefacts.dayProfiles) await this.dayProfiles.saveWith(client, artefacts.profileFingerprint, day);
+          for (const d of artefacts.moreDayProfiles ?? []) await this.dayProfiles.saveWith(client, d.fingerprint, d.profile);
         }
+        // Slice baselines before the whole one: a stored whole baseline has its slices' stored too.
+        for (const b of more) await this.writeBaseline(client, b);
         if (baseline !== null) await this.writeBaseline(client, baseline);
         const run = await client.query<{ id: string }>(
           `INSERT INTO ${this.runs}
@@ -202,13 +214,13 @@ export class Store {
         await client.query(
           `INSERT INTO ${this.findings}
              (run_date, run_id, ordinal, feature, check_name, rule, value, score, status, alerting, alert_level,
-              consecutive_runs, consecutive_critical, alerting_since, thresholds, summary, evidence)
+              consecutive_runs, consecutive_critical, alerting_since, thresholds, summary, evidence, slice)
            SELECT $1::date, $2::bigint, u.ordinal, u.feature, u.check_name, u.rule, u.value, u.score, u.status, u.alerting,
-                  u.alert_level, u.consecutive_runs, u.consecutive_critical, u.alerting_since, u.thresholds, u.summary, u.evidence
+                  u.alert_level, u.consecutive_runs, u.consecutive_critical, u.alerting_since, u.thresholds, u.summary, u.evidence, u.slice
              FROM unnest($3::int[], $4::text[], $5::text[], $6::text[], $7::float8[], $8::float8[], $9::text[], $10::boolean[],
-                         $11::text[], $12::int[], $13::int[], $14::date[], $15::jsonb[], $16::text[], $17::jsonb[])
+                         $11::text[], $12::int[], $13::int[], $14::date[], $15::jsonb[], $16::text[], $17::jsonb[], $18::text[])
                   AS u(ordinal, feature, check_name, rule, value, score, status, alerting, alert_level,
-                       consecutive_runs, consecutive_critical, alerting_since, thresholds, summary, evidence)`,
+                       consecutive_runs, consecutive_critical, alerting_since, thresholds, summary, evidence, slice)`,
           [
             report.runDate,
             runId,
@@ -227,6 +239,7 @@ export class Store {
             f.map((x) => JSON.stringify(x.thresholds)),
             f.map((x) => x.summary),
             f.map((x) => JSON.stringify(x.evidence)),
+            f.map((x) => sliceOf(x)),
           ],
         );
         const newest = await client.query<{ newest: string }>(
@@ -236,8 +249,8 @@ export class Store {
           await client.query(`DELETE FROM ${this.alertState}`);
           await client.query(
             `INSERT INTO ${this.alertState}
-               (feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, since, last_run_date, updated_at)
-             SELECT feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, alerting_since, run_date, now()
+               (slice, feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, since, last_run_date, updated_at)
+             SELECT slice, feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, alerting_since, run_date, now()
                FROM ${this.findings} WHERE run_date = $1`,
             [report.runDate],
           );
@@ -341,7 +354,7 @@ export class Store {
         `WITH prev AS (
            SELECT max(run_date) AS run_date FROM ${this.runs} WHERE outcome = 'success' AND run_date < $1
          )
-         SELECT prev.run_date::text AS prev_date, f.feature, f.check_name, f.rule, f.value, f.score, f.status, f.alerting,
+         SELECT prev.run_date::text AS prev_date, f.slice, f.feature, f.check_name, f.rule, f.value, f.score, f.status, f.alerting,
                 f.alert_level, f.consecutive_runs, f.consecutive_critical, f.alerting_since::text AS alerting_since, f.thresholds, f.summary, f.evidence
            FROM prev LEFT JOIN ${this.findings} f ON f.run_date = prev.run_date
           ORDER BY f.ordinal`,
@@ -359,8 +372,8 @@ export class Store {
   /** The last `limit` values of one finding, oldest first (for charts). */
   async history(query: HistoryQuery): Promise<HistoryPoint[]> {
     if (!Number.isInteger(query.limit) || query.limit < 1) throw new StoreError(`history limit must be a positive integer, got ${query.limit}`);
-    const params: unknown[] = [query.check, query.limit];
-    let where = 'check_name = $1';
+    const params: unknown[] = [query.check, query.limit, query.slice ?? 'all'];
+    let where = 'check_name = $1 AND slice = $3';
     if (query.feature === null) where += ' AND feature IS NULL';
     else where += ` AND feature = $${params.push(query.feature)}`;
     if (query.rule === null) where += ' AND rule IS NULL';
@@ -379,6 +392,7 @@ export class Store {
   async alertStates(): Promise<AlertStateEntry[]> {
     const res = await wrapped('reading the alert state failed', () =>
       this.pool.query<{
+        slice: string;
         feature: string | null;
         check_name: string;
         rule: string | null;
@@ -390,12 +404,13 @@ export class Store {
         since: string | null;
         last_run_date: string;
       }>(
-        `SELECT feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, since::text AS since,
+        `SELECT slice, feature, check_name, rule, status, consecutive_runs, consecutive_critical, alerting, alert_level, since::text AS since,
                 last_run_date::text AS last_run_date
-           FROM ${this.alertState} ORDER BY check_name, feature NULLS FIRST, rule NULLS FIRST`,
+           FROM ${this.alertState} ORDER BY slice = 'all' DESC, slice, check_name, feature NULLS FIRST, rule NULLS FIRST`,
       ),
     );
     return res.rows.map((r) => ({
+      slice: r.slice,
       feature: r.feature,
       check: r.check_name as CheckName,
       rule: r.rule as WithinListRule | null,
@@ -558,6 +573,7 @@ function encodeBaseline(profile: BaselineProfile): EncodedBaseline {
 
 function toFinding(r: FindingRow): Finding {
   return {
+    slice: r.slice,
     feature: r.feature,
     check: r.check_name as CheckName,
     rule: r.rule as WithinListRule | null,

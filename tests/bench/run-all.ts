@@ -10,6 +10,7 @@ import { main as rankingBench } from './ranking.bench.ts';
 import { main as trustBench } from './trust.bench.ts';
 import { main as storeBench } from './store.bench.ts';
 import { main as targetsBench } from './targets.bench.ts';
+import { main as slicesBench } from './slices.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
@@ -27,5 +28,9 @@ console.log('== the ranking checks: stream profile with and without, pushdown ra
 await rankingBench();
 console.log('== warnings on clean days and shifts caught, fixed and adaptive thresholds (tests/bench/trust.bench.ts)');
 await trustBench();
+console.log('');
 console.log('== the store over 90 daily runs, with and without retention (tests/bench/store.bench.ts)');
 await storeBench();
+console.log('');
+console.log('== slices: a day with and without a top-k slice and a segment column (tests/bench/slices.bench.ts)');
+await slicesBench();

@@ -111,11 +111,13 @@ function cliRun(configPath: string, date: string, sourceUrl: string, storeUrl: s
     if (e['msg'] === 'baseline ready') put('baseline load', e['seconds']);
     else if (e['msg'] === 'day profiled') {
       put('COPY and parse', e['readSeconds']);
+      put('slices', e['sliceSeconds']);
       put('sort/profile', e['profileSeconds']);
     } else if (e['msg'] === 'day profiled in the database') {
       put('list statement', e['listPassSeconds']);
       put('value statements', e['valuePassSeconds']);
       put('ranking statement', e['rankingSeconds']);
+      put('slice statements', e['slicesSeconds']);
       put('sample read', e['sampleSeconds']);
       put('sample profile', e['profileSeconds']);
     } else if (e['msg'] === 'run stored') put('store writes', e['seconds']);

@@ -41,7 +41,9 @@ async function runOn(url: string, layout: 'wide' | 'jsonb'): Promise<Report[]> {
   await admin.connect();
   try {
     await loadScenario(admin, { table, layout, scenario: SCENARIO });
-    const config = scenarioConfig(table, { layout, storeSchema: store, overrides: { baseline: { window: { type: 'trailing', days: 7 } } } });
+    // Slices too (plant_family is an item feature; as a segment column it slices rows all the same; the jsonb layout has no such column).
+    const slices = { topK: [5], segments: layout === 'wide' ? [{ column: 'plant_family', maxValues: 2, minRows: 50 }] : [] };
+    const config = scenarioConfig(table, { layout, storeSchema: store, overrides: { baseline: { window: { type: 'trailing', days: 7 } }, slices } });
     return [...(await runDays(config, url, RUN_DATES)).values()];
   } finally {
     await admin.query(`DROP SCHEMA IF EXISTS "${src}" CASCADE; DROP SCHEMA IF EXISTS "${store}" CASCADE`);
@@ -63,25 +65,32 @@ describe('reports agree across databases and layouts', () => {
   });
 
   it('catches the unit change on PGlite', () => {
-    const price = results['pglite-wide']![0]!.findings.find((f) => f.feature === 'price' && f.check === 'psi');
+    const price = results['pglite-wide']![0]!.findings.find((f) => f.feature === 'price' && f.check === 'psi' && f.slice === 'all');
     expect(price?.status).toBe('critical');
+  });
+
+  it('checks the slices on PGlite, in both layouts, and catches the unit change in each', () => {
+    const wide = results['pglite-wide']![0]!;
+    expect(wide.slices?.map((s) => s.slice)).toEqual(['top5', expect.stringMatching(/^segment:plant_family=/), expect.stringMatching(/^segment:plant_family=/), 'segment:plant_family:other']);
+    expect(results['pglite-jsonb']![0]!.slices?.map((s) => s.slice)).toEqual(['top5']);
+    for (const s of wide.slices!) expect(wide.findings.find((f) => f.slice === s.slice && f.feature === 'price' && f.check === 'psi')?.status, s.slice).toBe('critical');
   });
 
   it('counts text in a numeric jsonb key as type errors, and reads the rest of the jsonb layout like the wide one', () => {
     const [, wideDay] = results['pglite-wide']!;
     const [, jsonDay] = results['pglite-jsonb']!;
-    const typeErrors = jsonDay!.findings.find((f) => f.feature === 'review_count' && f.check === 'type_error_ratio');
+    const typeErrors = jsonDay!.findings.find((f) => f.feature === 'review_count' && f.check === 'type_error_ratio' && f.slice === 'all');
     expect(typeErrors?.status).toBe('critical');
     // JSON has no NaN or Infinity: in the jsonb layout the loader writes them as strings,
     // which are type errors there, while the wide layout sees real NaN/Infinity.
-    const nonfiniteWide = wideDay!.findings.find((f) => f.feature === 'text_match' && f.check === 'nonfinite_ratio');
+    const nonfiniteWide = wideDay!.findings.find((f) => f.feature === 'text_match' && f.check === 'nonfinite_ratio' && f.slice === 'all');
     expect(nonfiniteWide?.status).toBe('critical');
-    const textMatchJson = jsonDay!.findings.find((f) => f.feature === 'text_match' && f.check === 'type_error_ratio');
+    const textMatchJson = jsonDay!.findings.find((f) => f.feature === 'text_match' && f.check === 'type_error_ratio' && f.slice === 'all');
     expect(textMatchJson?.status).toBe('critical');
     // A feature no fault touched has the same statistics in both layouts.
     for (const check of ['psi', 'ks', 'flat_list_ratio'] as const) {
-      const a = wideDay!.findings.find((f) => f.feature === 'semantic_similarity' && f.check === check);
-      const b = jsonDay!.findings.find((f) => f.feature === 'semantic_similarity' && f.check === check);
+      const a = wideDay!.findings.find((f) => f.feature === 'semantic_similarity' && f.check === check && f.slice === 'all');
+      const b = jsonDay!.findings.find((f) => f.feature === 'semantic_similarity' && f.check === check && f.slice === 'all');
       expect(b?.value).toBe(a?.value);
     }
   });

@@ -53,10 +53,12 @@ function finding(p: {
   status?: Status;
   alerting?: boolean;
   since?: string;
+  slice?: string;
 }): Finding {
   const status = p.status ?? 'ok';
   const alerting = p.alerting ?? false;
   return {
+    slice: p.slice ?? 'all',
     feature: p.feature,
     check: p.check,
     rule: p.rule ?? null,
@@ -332,6 +334,7 @@ function storeSuite(target: Target): void {
       const alerts = await store.alertStates();
       expect(alerts).toHaveLength(4);
       expect(alerts.find((a) => a.check === 'ks')).toEqual({
+        slice: 'all',
         feature: 'days_listed',
         check: 'ks',
         rule: null,
@@ -343,6 +346,26 @@ function storeSuite(target: Target): void {
         since: '2024-02-27',
         lastRunDate: '2024-03-05',
       });
+    });
+
+    it('keys findings, alert state and history by slice (the same feature and check on the whole day and on a slice)', async () => {
+      const store = await freshStore();
+      const whole = finding({ feature: 'price_rel', check: 'psi', value: 0.02 });
+      const top = finding({ slice: 'top10', feature: 'price_rel', check: 'psi', value: 0.4, status: 'critical', alerting: true });
+      const seg = finding({ slice: 'segment:market=ö"\'; x', feature: 'price_rel', check: 'psi', value: 0.05 });
+      const r = report('2024-03-05', [whole, top, seg]);
+      await store.saveRun(r);
+      expect(await store.findingsFor('2024-03-05')).toEqual([whole, top, seg]);
+      const alerts = await store.alertStates();
+      expect(alerts.map((a) => [a.slice, a.alerting])).toEqual([
+        ['all', false],
+        ['segment:market=ö"\'; x', false],
+        ['top10', true],
+      ]);
+      expect(await store.history({ feature: 'price_rel', check: 'psi', limit: 5 })).toEqual([{ runDate: '2024-03-05', value: 0.02, status: 'ok' }]);
+      expect(await store.history({ slice: 'top10', feature: 'price_rel', check: 'psi', limit: 5 })).toEqual([{ runDate: '2024-03-05', value: 0.4, status: 'critical' }]);
+      // The previous day's findings come back per slice, so hysteresis runs per slice.
+      expect((await store.previousFindings('2024-03-06'))?.findings.map((f) => f.slice)).toEqual(['all', 'top10', 'segment:market=ö"\'; x']);
     });
 
     it('keeps a report with no findings', async () => {

@@ -183,3 +183,24 @@ describe('alertNameFor', () => {
     expect(alertNameFor('snapshot_missing')).toBe('PlumblineSnapshotMissing');
   });
 });
+
+describe('slice findings', () => {
+  it('push as PlumblineSliceBroken with the slice as a label, apart from the same check on the whole day', () => {
+    const alert = { consecutiveRuns: 2, consecutiveCritical: 2, alerting: true, level: 'critical' as const, since: '2031-05-13' };
+    const report = sampleReport({
+      findings: [
+        finding({ slice: 'all', feature: 'price_rel', check: 'psi', value: 0.31, status: 'critical', alert }),
+        finding({ slice: 'top10', feature: 'price_rel', check: 'psi', value: 0.52, status: 'critical', alert }),
+      ],
+    });
+    expect(alertNameFor('psi', 'top10')).toBe('PlumblineSliceBroken');
+    expect(alertingLabels(report)).toEqual([
+      { alertname: 'PlumblineFeatureDrifted', severity: 'page', check: 'psi', feature: 'price_rel' },
+      { alertname: 'PlumblineSliceBroken', severity: 'page', check: 'psi', slice: 'top10', feature: 'price_rel' },
+    ]);
+    const built = buildAlerts(report, { now: () => new Date('2031-05-15T07:00:00Z') });
+    const slice = built.alerts.find((a: PostableAlert) => a.labels['slice'] === 'top10')!;
+    expect(slice.annotations['summary']).toBe('Ranking feature price_rel in slice top10: psi alerting at critical');
+    expect(slice.annotations['description']).toMatch(/^Plumbline run for 2031-05-14: slice top10, feature price_rel, check psi is 0\.52/);
+  });
+});

@@ -10,6 +10,7 @@ import { describe, expect, it } from 'vitest';
 import { PlumblineMetrics, snapshotDateSeconds, type MonitorHealth } from '../../../src/exporter/index.ts';
 import type { Report } from '../../../src/report/contract.ts';
 import { finding, sampleReport } from './fixtures.ts';
+import { alerting } from '../../support/report-fixtures.ts';
 
 const HEALTH: MonitorHealth = {
   lastSuccessAt: '2031-05-14T06:31:00Z',
@@ -113,6 +114,15 @@ plumbline_feature_check_alerting{feature="seller_score",check="nonfinite_ratio"}
 plumbline_feature_check_alerting{feature="seller_score",check="out_of_range_ratio"} 0
 plumbline_feature_check_alerting{feature="seller_score",check="flat_list_ratio"} 1
 plumbline_feature_check_alerting{feature="category",check="new_category_ratio"} 0
+
+# HELP plumbline_slice_check_value Value of each per-feature check of a slice of the day (top positions, a segment value) in the latest run.
+# TYPE plumbline_slice_check_value gauge
+
+# HELP plumbline_slice_check_status Status of each per-feature check of a slice of the day in the latest run: 0 ok, 1 warn, 2 critical.
+# TYPE plumbline_slice_check_status gauge
+
+# HELP plumbline_slice_check_alerting Alert state of each per-feature check of a slice after consecutive-run hysteresis: 0 not alerting, 1 alerting at warn, 2 alerting at critical.
+# TYPE plumbline_slice_check_alerting gauge
 
 # HELP plumbline_dataset_check_value Value of each dataset-level check of the latest run.
 # TYPE plumbline_dataset_check_value gauge
@@ -270,6 +280,29 @@ describe('PlumblineMetrics report gauges', () => {
     // No list_size_psi finding any more: the scalar gauge has no sample rather than a stale one.
     expect(samples(after).filter((l) => l.startsWith('plumbline_list_size_psi'))).toEqual([]);
     expect(sample(after, 'plumbline_run_status')).toBe(0);
+  });
+
+  it('publishes slice findings in the slice family only, with the slice as a label', async () => {
+    const m = quiet();
+    m.showReport(
+      sampleReport({
+        findings: [
+          finding({ slice: 'all', feature: 'price_rel', check: 'psi', value: 0.03, status: 'ok' }),
+          finding({ slice: 'top10', feature: 'price_rel', check: 'psi', value: 0.41, status: 'critical', alert: alerting('critical', '2031-05-14', 1) }),
+          finding({ slice: 'segment:market=isle "east"', feature: 'price_rel', check: 'rule_violation_ratio', rule: 'zscore', value: 0.2, status: 'critical' }),
+        ],
+      }),
+    );
+    const body = (await m.render()).body;
+    // The whole day keeps its own value: a slice never overwrites it.
+    expect(sample(body, 'plumbline_feature_psi{feature="price_rel"}')).toBe(0.03);
+    expect(sample(body, 'plumbline_feature_check_value{feature="price_rel",check="psi"}')).toBe(0.03);
+    expect(sample(body, 'plumbline_slice_check_value{slice="top10",feature="price_rel",check="psi"}')).toBe(0.41);
+    expect(sample(body, 'plumbline_slice_check_status{slice="top10",feature="price_rel",check="psi"}')).toBe(2);
+    expect(sample(body, 'plumbline_slice_check_alerting{slice="top10",feature="price_rel",check="psi"}')).toBe(2);
+    // Label values are escaped by the exposition format (a segment value is data).
+    expect(sample(body, 'plumbline_slice_check_value{slice="segment:market=isle \\"east\\"",feature="price_rel",check="rule_violation_ratio",rule="zscore"}')).toBe(0.2);
+    expect(samples(body).filter((l) => l.startsWith('plumbline_slice_') && l.includes('slice="all"'))).toEqual([]);
   });
 
   it('clears every report series when there is no report, and keeps build_info', async () => {

@@ -9,7 +9,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
 import { parseConfig } from '../../../src/config/index.ts';
-import { buildDayProfile, PARALLEL_MIN_ROWS, profileOnThisThread, threadedProfiler, type DayColumns } from '../../../src/profile/index.ts';
+import { buildDayProfile, PARALLEL_MIN_ROWS, profileOnThisThread, profilerPool, threadedProfiler, type DayColumns } from '../../../src/profile/index.ts';
 
 const config = parseConfig({ source: { table: 't' }, features: [{ name: 'a' }, { name: 'b' }, { name: 'c' }, { name: 'd' }] });
 const LIST_SIZE = 50;
@@ -74,5 +74,39 @@ describe('threadedProfiler', () => {
   it('fails when a worker cannot load at all', async () => {
     const url = brokenWorker('syntax', 'this is not JavaScript');
     await expect(buildDayProfile(bigDay(), config, null, threadedProfiler(2, url))).rejects.toThrow(/^profile worker failed: /);
+  }, 60_000);
+});
+
+describe('profilerPool (one day and its slices share the workers)', () => {
+  it('gives the same profiles as this thread, request after request on one pool', async () => {
+    const one = await buildDayProfile(bigDay(), config, null, profileOnThisThread);
+    const pool = profilerPool(2);
+    try {
+      expect(await buildDayProfile(bigDay(), config, null, pool.profiler())).toEqual(one);
+      expect(await buildDayProfile(bigDay(), config, null, pool.profiler(1000))).toEqual(one);
+    } finally {
+      await pool.close();
+    }
+  }, 60_000);
+
+  it('counts each request once: a second request after a worker stopped starts a new worker, and both fail clearly', async () => {
+    const url = brokenWorker('pool-exits', "parentPort.on('message', () => process.exit(4));");
+    const pool = profilerPool(2, url);
+    try {
+      await expect(buildDayProfile(bigDay(), config, null, pool.profiler())).rejects.toThrow('profile worker stopped (exit code 4) before it sent the profiles');
+      await expect(buildDayProfile(bigDay(), config, null, pool.profiler())).rejects.toThrow('profile worker stopped (exit code 4) before it sent the profiles');
+    } finally {
+      await pool.close();
+    }
+  }, 60_000);
+
+  it('fails with the error when a pooled worker throws', async () => {
+    const url = brokenWorker('pool-throws', "parentPort.on('message', () => setTimeout(() => { throw new RangeError('out of slices'); }, 1));");
+    const pool = profilerPool(2, url);
+    try {
+      await expect(buildDayProfile(bigDay(), config, null, pool.profiler())).rejects.toThrow('profile worker failed: out of slices');
+    } finally {
+      await pool.close();
+    }
   }, 60_000);
 });

@@ -1,0 +1,235 @@
+/**
+ * Slices: row subsets of a day that are profiled and checked like the whole day. A shift
+ * confined to the top positions, or to one segment (a market, a device class) of a few
+ * percent of the lists, is diluted in the whole-day histogram; on its own rows it is not.
+ *
+ * A slice is a set of rows: the rows at the first k positions of every list (`top<k>`), or
+ * the rows whose segment column holds one value (`segment:<column>=<value>`), the rows of
+ * the values that did not get a slice of their own pooled (`segment:<column>:other`). Each
+ * slice's rows go through the same profiler as the whole day into a DayProfile of their
+ * own, so whatever a day profile computes is computed per slice by the same code.
+ *
+ * Segment values are data: a label is the value with control characters replaced and cut
+ * to SEGMENT_LABEL_MAX characters; slices are kept in arrays, never as object keys.
+ */
+import type { Config } from '../config/index.ts';
+import type { BinSpec } from '../stats/index.ts';
+import { buildDayProfile, type NumericProfiler, profileOnThisThread } from './day.ts';
+import { NULL_POSITION, type CategoricalColumn, type DayColumns, type SliceProfile } from './types.ts';
+
+/** Longest segment value label, in characters. */
+export const SEGMENT_LABEL_MAX = 64;
+
+/** The name of the whole day, as a slice. */
+export const WHOLE_DAY = 'all';
+
+/** Rows of one segment value, for choosing the values that get a slice. */
+export interface SegmentTally {
+  /** Non-null values with their rows: most rows first, ties in byte order of the UTF-8 value. */
+  ranked: { value: string; rows: number }[];
+  /** Rows of the day (null values included). */
+  totalRows: number;
+}
+
+export type SliceDef =
+  | { name: string; kind: 'top'; k: number; /** positions below this are in the slice */ below: number }
+  | {
+      name: string;
+      kind: 'segment';
+      /** Index in config.slices.segments. */
+      segment: number;
+      column: string;
+      /** The value of this slice, or null for the pooled rest. */
+      value: string | null;
+      /** Values that have slices of their own (what the pooled rest excludes). */
+      chosen: string[];
+    };
+
+export function hasSlices(config: Config): boolean {
+  return config.slices.topK.length > 0 || config.slices.segments.length > 0;
+}
+
+/** A segment value as it may appear in a slice name: no control characters, bounded length. */
+export function segmentLabel(value: string): string {
+  const clean = value.replace(/\p{Cc}/gu, '?');
+  const chars = [...clean];
+  return chars.length <= SEGMENT_LABEL_MAX ? clean : `${chars.slice(0, SEGMENT_LABEL_MAX).join('')}...`;
+}
+
+/** Orders tallies as the SQL `ORDER BY rows DESC, value COLLATE "C"` does. */
+export function compareTally(a: { value: string; rows: number }, b: { value: string; rows: number }): number {
+  return b.rows - a.rows || Buffer.compare(Buffer.from(a.value, 'utf8'), Buffer.from(b.value, 'utf8'));
+}
+
+/**
+ * The slices of a day: one per top-k, and per segment column the most frequent values with
+ * at least minRows rows (at most maxValues of them), then the pooled rest when it has
+ * minRows rows. Two values whose labels coincide share the first one's slice name: the
+ * second is pooled with the rest.
+ */
+export function planSlices(config: Config, tallies: readonly SegmentTally[]): SliceDef[] {
+  const out: SliceDef[] = [];
+  for (const k of config.slices.topK) out.push({ name: `top${k}`, kind: 'top', k, below: config.slices.firstPosition + k });
+  config.slices.segments.forEach((seg, s) => {
+    const tally = tallies[s];
+    if (tally === undefined) return;
+    const names = new Set<string>();
+    const chosen: { value: string; rows: number; name: string }[] = [];
+    for (const t of tally.ranked) {
+      if (chosen.length >= seg.maxValues || t.rows < seg.minRows) break;
+      const name = `segment:${seg.column}=${segmentLabel(t.value)}`;
+      if (names.has(name)) continue;
+      names.add(name);
+      chosen.push({ ...t, name });
+    }
+    const values = chosen.map((c) => c.value);
+    for (const c of chosen) out.push({ name: c.name, kind: 'segment', segment: s, column: seg.column, value: c.value, chosen: values });
+    const rest = tally.totalRows - chosen.reduce((sum, c) => sum + c.rows, 0);
+    if (rest >= seg.minRows) out.push({ name: `segment:${seg.column}:other`, kind: 'segment', segment: s, column: seg.column, value: null, chosen: values });
+  });
+  return out;
+}
+
+/** Rows per value of a segment column of the day's columns, ranked as planSlices wants them. */
+export function tallySegment(col: CategoricalColumn): SegmentTally {
+  const counts = new Float64Array(col.dictionary.length);
+  for (let i = 0; i < col.codes.length; i++) {
+    const c = col.codes[i]!;
+    if (c >= 0) counts[c]!++;
+  }
+  const ranked = col.dictionary.map((value, c) => ({ value, rows: counts[c]! })).filter((t) => t.rows > 0);
+  ranked.sort(compareTally);
+  return { ranked, totalRows: col.codes.length };
+}
+
+/** Indexes (ascending) of the rows of the day that belong to a slice. */
+export function sliceRows(cols: DayColumns, def: SliceDef): Int32Array {
+  const keep = new Uint8Array(cols.rows);
+  let n = 0;
+  if (def.kind === 'top') {
+    for (let i = 0; i < cols.rows; i++) {
+      const p = cols.position[i]!;
+      if (p !== NULL_POSITION && p < def.below) {
+        keep[i] = 1;
+        n++;
+      }
+    }
+  } else {
+    const col = cols.segments?.[def.segment];
+    if (col === undefined) throw new Error(`segment column ${def.column} was not read`);
+    // Per dictionary code: in the slice or not.
+    const member = new Uint8Array(col.dictionary.length);
+    const chosen = new Set(def.chosen);
+    col.dictionary.forEach((v, c) => (member[c] = def.value === null ? (chosen.has(v) ? 0 : 1) : v === def.value ? 1 : 0));
+    const nullIn = def.value === null ? 1 : 0;
+    for (let i = 0; i < cols.rows; i++) {
+      const c = col.codes[i]!;
+      if (c < 0 ? nullIn : member[c]) {
+        keep[i] = 1;
+        n++;
+      }
+    }
+  }
+  const rows = new Int32Array(n);
+  for (let i = 0, k = 0; i < cols.rows; i++) if (keep[i]) rows[k++] = i;
+  return rows;
+}
+
+function gatherFloat(src: Float64Array, rows: Int32Array, shared: boolean): Float64Array {
+  const out = shared ? new Float64Array(new SharedArrayBuffer(rows.length * 8)) : new Float64Array(rows.length);
+  for (let k = 0; k < rows.length; k++) out[k] = src[rows[k]!]!;
+  return out;
+}
+
+/** Codes of a subset with a dictionary of the values that occur in it (so distinct counts hold). */
+function gatherCategorical(col: CategoricalColumn, rows: Int32Array): CategoricalColumn {
+  const remap = new Int32Array(col.dictionary.length).fill(-1);
+  const dictionary: string[] = [];
+  const codes = new Int32Array(rows.length);
+  for (let k = 0; k < rows.length; k++) {
+    const c = col.codes[rows[k]!]!;
+    if (c < 0) {
+      codes[k] = -1;
+      continue;
+    }
+    if (remap[c]! < 0) {
+      remap[c] = dictionary.length;
+      dictionary.push(col.dictionary[c]!);
+    }
+    codes[k] = remap[c]!;
+  }
+  return { codes, dictionary };
+}
+
+/**
+ * The columns of a slice: the given rows of every column, lists renumbered (a list's rows in
+ * the slice form a list of the slice). The day's columns are not changed.
+ */
+export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
+  const listMap = new Int32Array(cols.lists).fill(-1);
+  const listOf = new Int32Array(rows.length);
+  let lists = 0;
+  for (let k = 0; k < rows.length; k++) {
+    const l = cols.listOf[rows[k]!]!;
+    if (l < 0) {
+      listOf[k] = -1;
+      continue;
+    }
+    if (listMap[l]! < 0) listMap[l] = lists++;
+    listOf[k] = listMap[l]!;
+  }
+  const position = new Int32Array(rows.length);
+  for (let k = 0; k < rows.length; k++) position[k] = cols.position[rows[k]!]!;
+  const missing = cols.missing.map((m) => {
+    if (m === null) return null;
+    const out = new Uint8Array(new SharedArrayBuffer(rows.length));
+    let any = false;
+    for (let k = 0; k < rows.length; k++) {
+      out[k] = m[rows[k]!]!;
+      if (out[k] !== 0) any = true;
+    }
+    return any ? out : null;
+  });
+  // A sampled day stands for all its rows; so does each slice of it.
+  const scale = cols.rows > 0 ? cols.totalRows / cols.rows : 1;
+  return {
+    date: cols.date,
+    rows: rows.length,
+    totalRows: cols.sampled ? Math.round(rows.length * scale) : rows.length,
+    sampled: cols.sampled,
+    listOf,
+    lists,
+    itemHash: gatherFloat(cols.itemHash, rows, false),
+    position,
+    label: cols.label === null ? null : gatherFloat(cols.label, rows, false),
+    numeric: cols.numeric.map((v) => (v === null ? null : gatherFloat(v, rows, true))),
+    missing,
+    categorical: cols.categorical.map((c) => (c === null ? null : gatherCategorical(c, rows))),
+  };
+}
+
+/** The slices of a day read into columns (stream engine, and the pushdown engine's sample). */
+export function planSlicesOfColumns(config: Config, cols: DayColumns): SliceDef[] {
+  return planSlices(config, (cols.segments ?? []).map(tallySegment));
+}
+
+/**
+ * Profiles each slice of a day's columns with the same profiler as the whole day. Call it
+ * before buildDayProfile of the whole day, which consumes the columns. `binsOf` gives the
+ * baseline bins of a slice (null: none yet).
+ */
+export async function buildSliceProfiles(
+  cols: DayColumns,
+  config: Config,
+  defs: readonly SliceDef[],
+  binsOf: (slice: string) => Record<string, BinSpec> | null,
+  profiler: NumericProfiler = profileOnThisThread,
+): Promise<SliceProfile[]> {
+  const out: SliceProfile[] = [];
+  // One slice at a time: its copy of the columns is released (profiled) before the next is made.
+  for (const def of defs) {
+    const sub = subsetColumns(cols, sliceRows(cols, def));
+    out.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sub, config, binsOf(def.name), profiler) });
+  }
+  return out;
+}
