@@ -196,6 +196,7 @@ export async function main(): Promise<void> {
   const dir = mkdtempSync(join(tmpdir(), 'plumbline-tgbench-'));
   const table = `${src}.day_rows`;
   const client = new pg.Client({ connectionString: url });
+  client.on('error', (err) => console.log(`targets.bench: connection: ${err.message}`));
   await client.connect();
   let shards: Shards | undefined;
   try {
@@ -266,6 +267,7 @@ export async function main(): Promise<void> {
     u.pathname = `/${coordDb}`;
     const coordUrl = u.toString();
     const coord = new pg.Client({ connectionString: coordUrl });
+    coord.on('error', (err) => console.log(`targets.bench: coordinator connection: ${err.message}`));
     await coord.connect();
     try {
       await coord.query(`CREATE EXTENSION postgres_fdw; CREATE SCHEMA src`);
@@ -273,6 +275,7 @@ export async function main(): Promise<void> {
       await coord.query(`CREATE TABLE src.day_rows (LIKE src.day_rows_local) PARTITION BY HASH (list_id)`);
       for (const [i, s] of shards.shards.entries()) {
         const sc = new pg.Client({ connectionString: s.url });
+        sc.on('error', (err) => console.log(`targets.bench: shard connection: ${err.message}`));
         await sc.connect();
         await createTable(sc, 'public.day_rows');
         await sc.end();
@@ -288,8 +291,10 @@ export async function main(): Promise<void> {
       await coord.query(`INSERT INTO src.day_rows SELECT * FROM src.one_server WHERE snapshot_date IN (${[...BASELINE, DAY].map((d) => `DATE '${d.date}'`).join(', ')})`);
       for (const s of shards.shards) {
         const sc = new pg.Client({ connectionString: s.url });
+        sc.on('error', (err) => console.log(`targets.bench: shard connection: ${err.message}`));
         await sc.connect();
-        await sc.query('CREATE INDEX ON public.day_rows (snapshot_date); VACUUM ANALYZE public.day_rows');
+        await sc.query('CREATE INDEX ON public.day_rows (snapshot_date)');
+        await sc.query('VACUUM ANALYZE public.day_rows');
         await sc.end();
       }
       console.log('');
