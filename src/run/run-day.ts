@@ -41,6 +41,7 @@ import {
   planSource,
   readDay,
   readDayAggregates,
+  foreignPartitionsOf,
   readRankingAggregates,
   sliceFilter,
   tallySegmentsSql,
@@ -216,7 +217,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
       for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
     }
     const ts = performance.now();
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength, totalRows: agg.dataset.rows });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength, totalRows: agg.dataset.rows, shippableHash: (await foreignPartitionsOf(client, plan.relation)) !== null });
     timings.rankingSeconds = (tsl - tr) / 1000;
     timings.slicesSeconds = (ts - tsl) / 1000;
     timings.sampleSeconds = (performance.now() - ts) / 1000;
