@@ -41,12 +41,14 @@ import {
   planSource,
   readDay,
   readDayAggregates,
+  foreignPartitionsOf,
   readRankingAggregates,
   sliceFilter,
   tallySegmentsSql,
   withRankingAggregates,
   type DayAggregates,
   type PushdownSpecs,
+  type PushdownTimings,
   type SourcePlan,
 } from '../source/index.ts';
 import { wasInterrupted } from './abort.ts';
@@ -202,16 +204,23 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
     const b = sliceSpecs.get(name);
     return { bins: b?.bins ?? null, fineBins: b?.fineBins ?? null, extremeBounds: b === undefined ? null : extremeBoundsOf(config, b) };
   };
+  const timings: PushdownTimings & { slicesSeconds?: number; rankingSeconds?: number; sampleSeconds?: number } = {};
   const { agg, ranking, cols, defs, sliceAggs } = await readSource(deps, `aggregating the snapshot of ${date}`, async (client) => {
-    const agg = await readDayAggregates(client, config, plan, date, specs);
+    const agg = await readDayAggregates(client, config, plan, date, specs, undefined, timings);
+    const tr = performance.now();
     const ranking = (await readRankingAggregates(client, config, plan, [date], { association: config.source.pushdownAssociation === 'sql', outcome: true })).get(date);
+    const tsl = performance.now();
     let defs: SliceDef[] = [];
     const sliceAggs: DayAggregates[] = [];
     if (hasSlices(config)) {
       defs = planSlices(config, await tallySegmentsSql(client, config, plan, date, agg.dataset.rows));
       for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
     }
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength });
+    const ts = performance.now();
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength, totalRows: agg.dataset.rows, shippableHash: (await foreignPartitionsOf(client, plan.relation)) !== null });
+    timings.rankingSeconds = (tsl - tr) / 1000;
+    timings.slicesSeconds = (ts - tsl) / 1000;
+    timings.sampleSeconds = (performance.now() - ts) / 1000;
     return { agg, ranking, cols, defs, sliceAggs };
   });
   const t1 = performance.now();
@@ -224,7 +233,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
   }
   const sample = await buildDayProfile(cols, config, null, threadedProfiler());
   const profile = withRankingAggregates(assemblePushdownProfile(date, agg, sample, config, specs), ranking, sample, config, plan.hasLabel);
-  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, slices: defs.length, sqlSeconds: (t1 - t0) / 1000, profileSeconds: (performance.now() - t1) / 1000 });
+  deps.log.debug('day profiled in the database', { date, rows: agg.dataset.rows, sampleRows: cols.rows, slices: defs.length, sqlSeconds: (t1 - t0) / 1000, ...timings, profileSeconds: (performance.now() - t1) / 1000 });
   return hasSlices(config) ? { ...profile, slices } : profile;
 }
 

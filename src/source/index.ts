@@ -12,6 +12,8 @@ export {
   type DayAggregates,
   type PushdownQueries,
   type PushdownSpecs,
+  type PushdownTimings,
+  foreignPartitionsOf,
   type ValueCoding,
 } from './pushdown.ts';
 export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';

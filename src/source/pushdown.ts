@@ -2,7 +2,7 @@
  * The `pushdown` engine: the day's statistics are computed inside PostgreSQL and only
  * aggregates come back (a few hundred rows at most, whatever the size of the day).
  *
- * Two aggregate statements run in the caller's REPEATABLE READ READ ONLY transaction:
+ * Three aggregate statements run in the caller's REPEATABLE READ READ ONLY transaction:
  *
  * - the list pass groups the day by list id and reduces each list to a few flags (size,
  *   duplicate items, position gaps, label counts, and per feature: judged / flat / rule
@@ -15,9 +15,18 @@
  *   and NaN have codes of their own, SQL null is a null code (jsonb type errors one more),
  *   and a finite value's code names its bin (thresholds that reproduce assignBin exactly:
  *   right-closed intervals, point masses) and whether it is out of range. Category values
- *   are counted too, and the sum / min / max of the values per code. This grouping is not
- *   on the list id, so on postgres_fdw partitions (PostgreSQL 15) it runs on the coordinator
- *   over the fetched columns.
+ *   are counted too;
+ * - the sum pass: the split sum, minimum and maximum of each numeric feature's finite values,
+ *   one row.
+ *
+ * On a partitioned table whose partitions are all foreign tables (postgres_fdw shards) the
+ * value and sum passes become one statement: per feature and partition a grouped query that
+ * postgres_fdw ships whole to the partition's server (counts, sums, minima and maxima per
+ * code), run concurrently by Async Append and merged on the coordinator. PostgreSQL 15's
+ * postgres_fdw pushes a GROUP BY down only for one foreign table, or for a partitioned table
+ * when the grouping holds the partition key (full partition-wise aggregation); never partial
+ * aggregates, GROUPING SETS or a join with a LATERAL unnest, which the one-scan value pass
+ * needs. Each shard then scans its rows once per feature, in exchange for sending kilobytes.
  *
  * SQL text is built from quoted identifiers only; dates, jsonb keys, ranges, tolerances
  * and bin thresholds are bound parameters (thresholds as float8[]).
@@ -44,6 +53,12 @@ export interface PushdownSpecs {
    * pass counts the finite values strictly below `lower` and strictly above `upper`.
    */
   extremeBounds?: Record<string, ExtremeLimits> | null;
+  /**
+   * The leaf partitions of the source when it is a partitioned table whose partitions are all
+   * foreign tables (postgres_fdw shards), as quoted names: the value pass then aggregates each
+   * partition on its own server (see buildPushdownQueries). Set by readDayAggregates.
+   */
+  foreignPartitions?: readonly string[] | null;
 }
 
 export interface ExtremeLimits {
@@ -58,7 +73,10 @@ export interface SqlStatement {
 
 export interface PushdownQueries {
   listPass: SqlStatement;
+  /** Counts per feature and code; on foreign partitions also the sums, minima and maxima per code. */
   valuePass: SqlStatement;
+  /** Sums, minima and maxima of each numeric feature's finite values (null on foreign partitions, or without numeric features). */
+  sumPass: SqlStatement | null;
 }
 
 /** Exact counts of one numeric feature from the value pass. */
@@ -356,18 +374,92 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
-  const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
-  const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
-  const valuePass = `SELECT v.f, v.b, v.c, count(*) AS n, sum(v.x) FILTER (WHERE abs(v.x) < ${largeAt}) AS s,
-       sum(v.x * ${scale}) FILTER (WHERE abs(v.x) >= ${largeAt} AND v.x > '-Infinity'::float8 AND v.x < 'Infinity'::float8) AS sl,
-       min(v.x) AS lo, max(v.x) AS hi
+  const partitions = specs.foreignPartitions ?? [];
+  if (partitions.length > 0) {
+    // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+    const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
+    const scale = vp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+    // Foreign partitions: one grouped statement per feature and partition, which postgres_fdw
+    // sends to the partition's server whole (it pushes a GROUP BY down only for a single
+    // foreign table, or for a partitioned one when the grouping holds the partition key; a
+    // LATERAL unnest or GROUPING SETS it never ships). Async Append runs the shards' parts
+    // concurrently; the small per-partition results are merged here.
+    const parts: string[] = [];
+    const rowFilter = filter === undefined ? '' : ` AND (${filter((v, c) => vp.add(v, c))})`;
+    const fin = (x: string): string => `${x} > '-Infinity'::float8 AND ${x} < 'Infinity'::float8`;
+    vfeatures.forEach((fs, i) => {
+      for (const rel of partitions) {
+        const from = `FROM ${rel} WHERE ${plan.dateColumn} = ${vDate}${rowFilter}`;
+        if (fs.feature.kind === 'categorical') {
+          parts.push(`SELECT ${i}::int4 AS f, NULL::int4 AS b, ${texts[i]} AS c, count(*) AS n, NULL::float8 AS s, NULL::float8 AS sl, NULL::float8 AS lo, NULL::float8 AS hi ${from} GROUP BY 3`);
+          continue;
+        }
+        const x = values[i]!;
+        parts.push(
+          `SELECT ${i}::int4 AS f, ${codes[i]} AS b, NULL::text AS c, count(*) AS n, sum(${x}) FILTER (WHERE abs(${x}) < ${largeAt}) AS s, sum(${x} * ${scale}) FILTER (WHERE abs(${x}) >= ${largeAt} AND ${fin(x)}) AS sl, min(${x}) AS lo, max(${x}) AS hi ${from} GROUP BY 2`,
+        );
+      }
+    });
+    const text = `SELECT f, b, c, sum(n) AS n, sum(s) AS s, sum(sl) AS sl, min(lo) AS lo, max(hi) AS hi
+  FROM (${parts.join('\n        UNION ALL ')}) AS per_partition
+ GROUP BY 1, 2, 3`;
+    return { listPass: { text: listPass, values: lp.values }, valuePass: { text, values: vp.values }, sumPass: null };
+  }
+  // One scan counts every (feature, code) pair, and only counts: the sums, minima and maxima
+  // of the finite values go to a one-row aggregate of their own (sumPass), which is cheaper
+  // than five aggregates per (feature, code) pair (measured: 1M rows x 50 features, 16 s and
+  // 2 s against about 30 s for the two in one statement, on a busy 2-core machine).
+  const hasText = vfeatures.some((fs) => fs.feature.kind === 'categorical');
+  const valuePass = `SELECT v.f, v.b, ${hasText ? 'v.c' : 'NULL::text AS c'}, count(*) AS n
   FROM ${plan.relation}
-       CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[], ARRAY[${texts.join(', ')}]::text[], ARRAY[${values.join(', ')}]::float8[]) AS v(f, b, c, x)
+       CROSS JOIN LATERAL unnest(${vp.add(fIdx, 'int4[]')}, ARRAY[${codes.join(', ')}]::int4[]${hasText ? `, ARRAY[${texts.join(', ')}]::text[]` : ''}) AS v(f, b${hasText ? ', c' : ''})
  WHERE ${plan.dateColumn} = ${vDate}${filter === undefined ? '' : ` AND (${filter((v, c) => vp.add(v, c))})`}
  GROUP BY 1, 2, 3`;
 
-  return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values } };
+  // ---- sums, minima and maxima of the finite values, one row
+  const sp = new Params();
+  const sDate = sp.add(date, 'date');
+  const numericFeatures = config.features.map((f, i) => ({ f, i })).filter(({ f }) => f.kind !== 'categorical');
+  let sumPass: SqlStatement | null = null;
+  if (numericFeatures.length > 0) {
+    const xs = numericFeatures.map(({ f, i }) => featureSql(config, plan, f, i, sp).value);
+    // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
+    const largeAt = sp.add(LARGE_MAGNITUDE, 'float8');
+    const scale = sp.add(2 ** -LARGE_SCALE_EXP, 'float8');
+    const arr = (fn: (x: string) => string): string => `ARRAY[${xs.map(fn).join(', ')}]::float8[]`;
+    sumPass = {
+      text: `SELECT ${arr((x) => `sum(${x}) FILTER (WHERE abs(${x}) < ${largeAt})`)} AS s,
+       ${arr((x) => `sum(${x} * ${scale}) FILTER (WHERE abs(${x}) >= ${largeAt} AND ${finite(x)})`)} AS sl,
+       ${arr((x) => `min(${x}) FILTER (WHERE ${finite(x)})`)} AS lo,
+       ${arr((x) => `max(${x}) FILTER (WHERE ${finite(x)})`)} AS hi
+  FROM ${plan.relation}
+ WHERE ${plan.dateColumn} = ${sDate}${filter === undefined ? '' : ` AND (${filter((v, c) => sp.add(v, c))})`}`,
+      values: sp.values,
+    };
+  }
+
+  return { listPass: { text: listPass, values: lp.values }, valuePass: { text: valuePass, values: vp.values }, sumPass };
+}
+
+/**
+ * The leaf partitions of `relation` (a quoted name) when it is a partitioned table and every
+ * leaf is a foreign table; null otherwise (a plain table, a view, or local partitions, which
+ * PostgreSQL aggregates in one scan well enough). Names come quoted from regclass output.
+ */
+export async function foreignPartitionsOf(client: PoolClient, relation: string): Promise<string[] | null> {
+  const res = await client.query<{ name: string; relkind: string }>(
+    `WITH RECURSIVE tree(oid) AS (
+       SELECT inhrelid FROM pg_catalog.pg_inherits
+        WHERE inhparent = $1::regclass AND (SELECT relkind FROM pg_catalog.pg_class WHERE oid = $1::regclass) = 'p'
+       UNION ALL SELECT i.inhrelid FROM pg_catalog.pg_inherits i JOIN tree t ON i.inhparent = t.oid)
+     SELECT c.oid::regclass::text AS name, c.relkind::text AS relkind
+       FROM tree t JOIN pg_catalog.pg_class c ON c.oid = t.oid
+      WHERE c.relkind NOT IN ('p', 'I')
+      ORDER BY c.oid`,
+    [relation],
+  );
+  if (res.rows.length === 0 || res.rows.some((r) => r.relkind !== 'f')) return null;
+  return res.rows.map((r) => r.name);
 }
 
 /**
@@ -381,13 +473,20 @@ export async function preparePushdownSession(client: PoolClient): Promise<void> 
   await client.query('SET LOCAL enable_partitionwise_aggregate = on');
 }
 
+/** Seconds each statement took, for the run's debug log (where a pushdown run's time goes). */
+export interface PushdownTimings {
+  listPassSeconds?: number;
+  valuePassSeconds?: number;
+}
+
 /**
  * Runs both aggregate statements for one day. `client` must be inside a read-only
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
-export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter): Promise<DayAggregates> {
-  const q = buildPushdownQueries(config, plan, date, specs, filter);
+export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter, timings?: PushdownTimings): Promise<DayAggregates> {
+  const q = buildPushdownQueries(config, plan, date, { ...specs, foreignPartitions: specs.foreignPartitions ?? (await foreignPartitionsOf(client, plan.relation)) }, filter);
   await preparePushdownSession(client);
+  const t0 = performance.now();
 
   const listRes = await client.query<{ nl: boolean; size: string; lists: string; rows: string; ni: string; dup: string; gap: string; ly: string | null; lp: string | null; nopos: string; wl: string[] }>(q.listPass.text, q.listPass.values);
   const sizes = new Array<number>(LIST_SIZE_BINS).fill(0);
@@ -421,7 +520,13 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
     withinList[f.name] = { listsJudged: wlSums[3 * k]!, flatLists: wlSums[3 * k + 1]!, ruleViolations: wlSums[3 * k + 2]! };
   });
 
-  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s: number | null; sl: number | null; lo: number | null; hi: number | null }>(q.valuePass.text, q.valuePass.values);
+  const t1 = performance.now();
+  const valueRes = await client.query<{ f: number; b: number | null; c: string | null; n: string; s?: number | null; sl?: number | null; lo?: number | null; hi?: number | null }>(q.valuePass.text, q.valuePass.values);
+  const sumRes = q.sumPass === null ? null : await client.query<{ s: (number | null)[]; sl: (number | null)[]; lo: (number | null)[]; hi: (number | null)[] }>(q.sumPass.text, q.sumPass.values);
+  if (timings !== undefined) {
+    timings.listPassSeconds = (t1 - t0) / 1000;
+    timings.valuePassSeconds = (performance.now() - t1) / 1000;
+  }
   const codings = new Map(config.features.filter((f) => f.kind !== 'categorical').map((f) => [f.name, valueCoding(countingSpec(specs, f.name), f.range, specs.extremeBounds?.[f.name])]));
   const numeric: Record<string, NumericAggregates> = {};
   const categorical: DayAggregates['categorical'] = {};
@@ -464,11 +569,20 @@ export async function readDayAggregates(client: PoolClient, config: Config, plan
       a.sum.largeScaled += r.sl ?? 0;
       if (a.extreme !== undefined && d.beyond === -1) a.extreme.below += n;
       if (a.extreme !== undefined && d.beyond === 1) a.extreme.above += n;
-      if (r.lo !== null && (a.min === null || r.lo < a.min)) a.min = r.lo;
-      if (r.hi !== null && (a.max === null || r.hi > a.max)) a.max = r.hi;
+      if (r.lo != null && (a.min === null || r.lo < a.min)) a.min = r.lo;
+      if (r.hi != null && (a.max === null || r.hi > a.max)) a.max = r.hi;
     } else if (d.kind === 'nan') q.nan += n;
     else if (d.kind === 'posInf') q.posInf += n;
     else q.negInf += n;
+  }
+  const sums = sumRes?.rows[0];
+  if (sums !== undefined) {
+    config.features.filter((f) => f.kind !== 'categorical').forEach((f, k) => {
+      const a = numeric[f.name]!;
+      a.sum = { small: sums.s[k] ?? 0, largeScaled: sums.sl[k] ?? 0 };
+      a.min = sums.lo[k] ?? null;
+      a.max = sums.hi[k] ?? null;
+    });
   }
   return { dataset, numeric, categorical, withinList };
 }

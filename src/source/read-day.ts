@@ -216,11 +216,22 @@ export interface ReadDayOptions {
   featureCount: number;
   /** Category values are cut to this many characters (source.maxCategoryLength); default 200. */
   maxCategoryLength?: number;
+  /** The day's row count when the caller counted it in the same snapshot (the pushdown engine): saves a scan. */
+  totalRows?: number;
+  /** Sample by the form of the list hash that postgres_fdw ships to the shards (same lists, more CPU). */
+  shippableHash?: boolean;
 }
 
-/** md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. */
-function listHashExpression(listId: string): string {
-  return `(('x' || substr(md5(${listId}::text), 1, 8))::bit(32)::bigint / 4294967296.0)`;
+/**
+ * md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. The
+ * `shippable` form gives the same value from the same four bytes without a cast through
+ * text (postgres_fdw does not ship such a cast to a shard, and would then fetch every row to
+ * filter it on the coordinator); it computes md5 four times, so it is used only there.
+ */
+function listHashExpression(listId: string, shippable = false): string {
+  if (!shippable) return `(('x' || substr(md5(${listId}::text), 1, 8))::bit(32)::bigint / 4294967296.0)`;
+  const byte = (i: number): string => `get_byte(decode(md5(${listId}::text), 'hex'), ${i})::int8`;
+  return `(((${byte(0)} << 24) | (${byte(1)} << 16) | (${byte(2)} << 8) | ${byte(3)}) / 4294967296.0)`;
 }
 
 /**
@@ -229,14 +240,13 @@ function listHashExpression(listId: string): string {
  */
 export async function readDay(client: PoolClient, plan: SourcePlan, date: string, options: ReadDayOptions): Promise<DayColumns> {
   const where = `${plan.dateColumn} = $1::date`;
-  const countRes = await client.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where}`, [date]);
-  const totalRows = Number(countRes.rows[0]?.n ?? 0);
+  const totalRows = options.totalRows ?? Number((await client.query<{ n: string }>(`SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where}`, [date])).rows[0]?.n ?? 0);
   const sampled = totalRows > options.maxRows;
   const fraction = sampled ? options.maxRows / totalRows : 1;
   let rows = totalRows;
   if (sampled) {
     const res = await client.query<{ n: string }>(
-      `SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where} AND ${listHashExpression(plan.listIdExpression)} < $2`,
+      `SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where} AND ${listHashExpression(plan.listIdExpression, options.shippableHash)} < $2`,
       [date, fraction],
     );
     rows = Number(res.rows[0]?.n ?? 0);
@@ -267,7 +277,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   // COPY takes no bind parameters: the date is validated as YYYY-MM-DD before it gets here
   // and the sampling fraction is a number we computed.
   if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
-  const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
+  const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression, options.shippableHash)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
   const sink = new DaySink(plan, out, options.maxCategoryLength ?? 200);
   const parser = new CopyBinaryParser(plan.selectList.length, sink);

@@ -132,6 +132,7 @@ async function sqlBench(url: string, rows: number): Promise<void> {
       let t0 = performance.now();
       await client.query(q.listPass.text, q.listPass.values);
       await client.query(q.valuePass.text, q.valuePass.values);
+      if (q.sumPass !== null) await client.query(q.sumPass.text, q.sumPass.values);
       const existing = seconds(t0);
       const r = buildRankingQuery(config, plan, ['2026-02-04'], { association: true, outcome: true });
       t0 = performance.now();

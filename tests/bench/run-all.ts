@@ -1,5 +1,5 @@
 /**
- * `npm run bench`: every benchmark in turn; each prints its own figures. The run, pushdown
+ * `npm run bench`: every benchmark in turn; each prints its own figures. The targets, run, pushdown
  * and store benchmarks need a PostgreSQL server (PLUMBLINE_BENCH_DATABASE_URL or
  * PLUMBLINE_TEST_DATABASE_URL) and says so when there is none.
  */
@@ -9,10 +9,14 @@ import { main as pushdownBench } from './pushdown.bench.ts';
 import { main as rankingBench } from './ranking.bench.ts';
 import { main as trustBench } from './trust.bench.ts';
 import { main as storeBench } from './store.bench.ts';
+import { main as targetsBench } from './targets.bench.ts';
 import { main as slicesBench } from './slices.bench.ts';
 
 console.log('== statistics (tests/bench/stats.bench.ts)');
 statsBench();
+console.log('');
+console.log('== the performance targets as ratios measured in one run, and where the time goes (tests/bench/targets.bench.ts)');
+await targetsBench();
 console.log('');
 console.log('== a daily run against PostgreSQL (tests/bench/run.bench.ts)');
 await runBench();

@@ -3,7 +3,7 @@
  * loopback hold the rows, and the snapshot table on the test server is partitioned by hash
  * of the list id into postgres_fdw foreign tables on them (asynchronous foreign scans on).
  * The report must equal the report for the same rows in one plain table, and EXPLAIN
- * (VERBOSE) must show the per-list aggregation running on the shards.
+ * (VERBOSE) must show the per-list aggregation and the value counts running on the shards.
  *
  * Needs PLUMBLINE_TEST_DATABASE_URL (the coordinator; postgres_fdw must be installable) and
  * the PostgreSQL 15 binaries. Skips with the reason when it cannot start the shards, except
@@ -15,7 +15,7 @@ import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { createTableSql, loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
 import type { Report } from '../../src/report/index.ts';
-import { buildPushdownQueries, planSource, preparePushdownSession } from '../../src/source/index.ts';
+import { buildPushdownQueries, foreignPartitionsOf, planSource, preparePushdownSession } from '../../src/source/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { runDays } from '../support/run-days.ts';
@@ -189,6 +189,35 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       }
       expect(text).toMatch(/Async Foreign Scan/);
       expect(text).toMatch(/Relations: Aggregate on/);
+      await client.query('ROLLBACK');
+    } finally {
+      client.release();
+      await pool.end();
+    }
+  });
+
+  it('counts the values on the shards too: each feature aggregated per foreign partition remotely (EXPLAIN VERBOSE), asynchronously', async (ctx) => {
+    if (skipReason !== undefined) ctx.skip(skipReason);
+    const pool = new pg.Pool({ connectionString: coordUrl, max: 1 });
+    const client = await pool.connect();
+    try {
+      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      const plan = await planSource(client, shardedConfig);
+      const partitions = await foreignPartitionsOf(client, plan.relation);
+      expect(partitions).toHaveLength(2);
+      const q = buildPushdownQueries(shardedConfig, plan, RUN_DATES[0]!, { bins: null, fineBins: null, foreignPartitions: partitions });
+      await preparePushdownSession(client);
+      const res = await client.query<{ 'QUERY PLAN': string }>(`EXPLAIN (VERBOSE, COSTS OFF) ${q.valuePass.text}`, q.valuePass.values);
+      const text = res.rows.map((r) => r['QUERY PLAN']).join('\n');
+      const remote = text.split('\n').filter((l) => l.includes('Remote SQL:'));
+      // One remote grouped statement per feature and shard; no row-level fetch of the feature columns.
+      expect(remote, text).toHaveLength(2 * shardedConfig.features.length);
+      for (const line of remote) {
+        expect(line, text).toMatch(/count\(\*\)/);
+        expect(line, text).toMatch(/GROUP BY/);
+      }
+      expect(text.match(/Relations: Aggregate on/g), text).toHaveLength(2 * shardedConfig.features.length);
+      expect(text).toMatch(/Async Foreign Scan/);
       await client.query('ROLLBACK');
     } finally {
       client.release();
