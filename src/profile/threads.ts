@@ -32,73 +32,17 @@ function startWorker(url: URL): Worker {
 }
 
 /**
- * Profiles one share of the features on a worker. Settles exactly once: with the worker's
- * answer, or with an error when the worker reports one, throws, or exits without answering
- * (killed, out of memory, process.exit in a dependency), so a dead worker fails the run
- * instead of leaving it waiting.
- */
-export function runWorker(req: ProfileRequest, url: URL = WORKER_URL): { done: Promise<NumericProfile[]>; stop(): void } {
-  const worker = startWorker(url);
-  const done = new Promise<NumericProfile[]>((resolve, reject) => {
-    let settled = false;
-    const settle = (fn: () => void): void => {
-      if (settled) return;
-      settled = true;
-      fn();
-      void worker.terminate();
-    };
-    worker.once('message', (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }) => {
-      settle(() => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
-    });
-    worker.once('messageerror', (err) => settle(() => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err }))));
-    worker.once('error', (err) => settle(() => reject(new Error(`profile worker failed: ${err.message}`, { cause: err }))));
-    worker.once('exit', (code) => settle(() => reject(new Error(`profile worker stopped (exit code ${code}) before it sent the profiles`))));
-    worker.postMessage(req);
-  });
-  return { done, stop: () => void worker.terminate() };
-}
-
-/**
- * A profiler that uses up to `threads` threads (default: the machine's cores). Features
- * are dealt round-robin, the first share on this thread. `workerUrl` is for tests only.
+ * A profiler that uses up to `threads` threads (default: the machine's cores) for one
+ * profile: a pool started for the call and closed after it. `workerUrl` is for tests only.
  */
 export function threadedProfiler(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): NumericProfiler {
   return async (cols, g, indexes, config, bins) => {
-    if (threads <= 1 || cols.rows < PARALLEL_MIN_ROWS || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
-    const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
-    indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
-    const remote = shares.slice(1).map((share) =>
-      runWorker(
-        {
-          lists: cols.lists,
-          grouping: g,
-          jobs: share.map((fi) => {
-            const feature = config.features[fi]!;
-            const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
-            // The worker holds the shared column now; this thread lets go of it.
-            releaseColumn(cols, fi);
-            return job;
-          }),
-        },
-        workerUrl,
-      ),
-    );
-    // Observed at once: a worker that fails while this thread profiles its own share must
-    // not become an unhandled rejection (which would end the process instead of the run).
-    const all = Promise.all(remote.map((r) => r.done));
-    all.catch(() => remote.forEach((r) => r.stop()));
-    let local: NumericProfile[];
+    const pool = profilerPool(threads, workerUrl);
     try {
-      local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
-    } catch (err) {
-      remote.forEach((r) => r.stop());
-      throw err;
+      return await pool.profiler()(cols, g, indexes, config, bins);
+    } finally {
+      await pool.close();
     }
-    const done = await all;
-    const results = new Map<number, NumericProfile>();
-    shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
-    shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
-    return indexes.map((fi) => results.get(fi)!);
   };
 }
 
@@ -113,9 +57,11 @@ export interface ProfilerPool {
 /**
  * A pool of up to `threads` threads (default: the machine's cores), this one included. Starting
  * a worker costs more than profiling a small row set, so a run that profiles several (a day and
- * its slices, src/profile/slices.ts) starts its workers once. Each request settles exactly once,
- * as runWorker's does; a worker that failed or exited is dropped and the next request starts
- * another.
+ * its slices, src/profile/slices.ts) starts its workers once. Features are dealt round-robin,
+ * the first share on this thread. Each request settles exactly once: with the worker's answer,
+ * or with an error when the worker reports one, throws, or exits without answering (killed,
+ * out of memory), so a dead worker fails the run instead of leaving it waiting; a worker that
+ * failed or exited is dropped and the next request starts another.
  */
 export function profilerPool(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): ProfilerPool {
   const workers: (Worker | undefined)[] = [];
@@ -165,7 +111,8 @@ export function profilerPool(threads: number = availableParallelism(), workerUrl
             }),
           }),
         );
-        // Observed at once, as in threadedProfiler: a failing worker must not become an unhandled rejection.
+        // Observed at once: a worker that fails while this thread profiles its own share must
+        // not become an unhandled rejection (which would end the process instead of the run).
         const all = Promise.all(remote.map((r) => r.done));
         all.catch(() => remote.forEach((r) => r.stop()));
         let local: NumericProfile[];
