@@ -120,7 +120,7 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       scoreComplete![l] = complete;
       if (complete === 1) {
         scratch.ensure(n);
-        averageRanksInto(sc!.subarray(e0, e0 + n), n, scratch.sorted, scratch.rx);
+        averageRanksInto(sc!.subarray(e0, e0 + n), n, scratch, scratch.rx);
         scoreRank!.set(scratch.rx.subarray(0, n), e0);
       }
     }
@@ -190,7 +190,7 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (m < 3) continue;
-    averageRanksInto(sp.x, m, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(m));
+    averageRanksInto(sp.x, m, sp.ranks, sp.rx);
     if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank, n, e0));
     else {
       ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
@@ -213,8 +213,8 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (q < 3) continue;
-    averageRanksInto(sp.x, q, sp.ranks.sorted, sp.rx, sp.ranks.sortedView(q));
-    averageRanksInto(sp.y, q, sp.ranks.sorted, sp.ry, sp.ranks.sortedView(q));
+    averageRanksInto(sp.x, q, sp.ranks, sp.rx);
+    averageRanksInto(sp.y, q, sp.ranks, sp.ry);
     addRho(score, rhoFromRanks(sp.rx, sp.ry, q));
   }
   return { position, score };

@@ -8,43 +8,90 @@
  */
 import { StatsInputError } from './errors.ts';
 
+/** Lists up to this long are ordered by insertion sort; longer ones by merge sort. */
+const INSERTION_MAX = 64;
+
 /**
  * Average ranks (1-based) of values[0 .. n) into out[0 .. n): tied values share the mean of
  * the ranks they span, as in Spearman (1904) and scipy.stats.rankdata(method='average').
  *
- * How: the values are copied into `sorted` and sorted; a value's rank is then
- * (#less + 1 + #less-or-equal) / 2, both counts by binary search. O(n log n).
+ * How: the indexes 0 .. n-1 are ordered by value (a stable insertion sort for n <= 64, else a
+ * bottom-up merge sort over runs of 16), then one walk over the order gives each run of equal
+ * values the mean of the ranks it spans. O(n log n); for result lists of tens of items the
+ * insertion sort, in plain JavaScript on the caller's scratch, is about twice as fast as
+ * sorting a copy with the built-in sort and finding each value by binary search
+ * (tests/bench/ranking.bench.ts measures a day of them).
  *
  * Example: averageRanksInto([10, 20, 20, 5], 4, scratch, out) => out [2, 3.5, 3.5, 1]
  *
- * Values must be finite (NaN has no order). `sorted` and `out` need length >= n.
+ * Values must be finite (NaN has no order). `out` needs length >= n.
  */
-export function averageRanksInto(values: ArrayLike<number>, n: number, sorted: Float64Array, out: Float64Array, view?: Float64Array): void {
-  if (sorted.length < n || out.length < n || values.length < n) throw new StatsInputError(`averageRanksInto requires arrays of length >= n = ${n}`);
-  for (let i = 0; i < n; i++) sorted[i] = values[i]!;
-  // `view`, when given, is sorted.subarray(0, n) made once by the caller (no allocation per list).
-  const s = (view !== undefined && view.length === n && view.buffer === sorted.buffer ? view : sorted.subarray(0, n)).sort();
+export function averageRanksInto(values: ArrayLike<number>, n: number, scratch: RankScratch, out: Float64Array): void {
+  if (out.length < n || values.length < n) throw new StatsInputError(`averageRanksInto requires arrays of length >= n = ${n}`);
+  scratch.ensure(n);
+  const order = n <= INSERTION_MAX ? insertionOrder(values, n, scratch.order) : mergeOrder(values, n, scratch.order, scratch.merge);
+  let i = 0;
+  while (i < n) {
+    const v = values[order[i]!]!;
+    let j = i + 1;
+    while (j < n && values[order[j]!] === v) j++;
+    const r = (i + 1 + j) / 2;
+    for (let t = i; t < j; t++) out[order[t]!] = r;
+    i = j;
+  }
+}
+
+/** Indexes 0 .. n-1 ordered by value, stable, by insertion sort into `order`. */
+function insertionOrder(values: ArrayLike<number>, n: number, order: Int32Array): Int32Array {
   for (let i = 0; i < n; i++) {
     const v = values[i]!;
-    let lo = 0;
-    let hi = n;
-    while (lo < hi) {
-      const mid = (lo + hi) >>> 1;
-      if (s[mid]! < v) lo = mid + 1;
-      else hi = mid;
+    let j = i - 1;
+    while (j >= 0 && values[order[j]!]! > v) {
+      order[j + 1] = order[j]!;
+      j--;
     }
-    // s[lo] is v itself; look further only when the next value ties with it (rare for continuous values).
-    let le = lo + 1;
-    if (le < n && s[le] === v) {
-      hi = n;
-      while (le < hi) {
-        const mid = (le + hi) >>> 1;
-        if (s[mid]! <= v) le = mid + 1;
-        else hi = mid;
-      }
-    }
-    out[i] = (lo + 1 + le) / 2;
+    order[j + 1] = i;
   }
+  return order;
+}
+
+/** Indexes 0 .. n-1 ordered by value, stable: insertion-sorted runs of 16 merged bottom-up. Returns `a` or `b`. */
+function mergeOrder(values: ArrayLike<number>, n: number, a: Int32Array, b: Int32Array): Int32Array {
+  const RUN = 16;
+  for (let s = 0; s < n; s += RUN) {
+    const e = Math.min(n, s + RUN);
+    for (let i = s; i < e; i++) {
+      const v = values[i]!;
+      let j = i - 1;
+      while (j >= s && values[a[j]!]! > v) {
+        a[j + 1] = a[j]!;
+        j--;
+      }
+      a[j + 1] = i;
+    }
+  }
+  let src = a;
+  let dst = b;
+  for (let w = RUN; w < n; w *= 2) {
+    for (let lo = 0; lo < n; lo += 2 * w) {
+      const mid = Math.min(n, lo + w);
+      const hi = Math.min(n, lo + 2 * w);
+      let p = lo;
+      let q = mid;
+      let k = lo;
+      while (p < mid && q < hi) {
+        // Ties take the left run first: stable.
+        if (values[src[q]!]! < values[src[p]!]!) dst[k++] = src[q++]!;
+        else dst[k++] = src[p++]!;
+      }
+      while (p < mid) dst[k++] = src[p++]!;
+      while (q < hi) dst[k++] = src[q++]!;
+    }
+    const t = src;
+    src = dst;
+    dst = t;
+  }
+  return src;
 }
 
 /**
@@ -72,25 +119,19 @@ export function rhoFromRanks(rx: ArrayLike<number>, ry: ArrayLike<number>, n: nu
   return r > 1 ? 1 : r < -1 ? -1 : r;
 }
 
-/** Reusable buffers for spearmanInto; grown on demand. */
+/** Reusable buffers for averageRanksInto and spearmanInto; grown on demand. */
 export class RankScratch {
-  sorted = new Float64Array(64);
+  order = new Int32Array(64);
+  merge = new Int32Array(64);
   rx = new Float64Array(64);
   ry = new Float64Array(64);
-  private views = new Map<number, Float64Array>();
   ensure(n: number): void {
-    if (this.sorted.length >= n) return;
-    const len = Math.max(n, this.sorted.length * 2);
-    this.sorted = new Float64Array(len);
+    if (this.order.length >= n) return;
+    const len = Math.max(n, this.order.length * 2);
+    this.order = new Int32Array(len);
+    this.merge = new Int32Array(len);
     this.rx = new Float64Array(len);
     this.ry = new Float64Array(len);
-    this.views.clear();
-  }
-  /** sorted.subarray(0, n), made once per length (lists of a day have few distinct lengths). */
-  sortedView(n: number): Float64Array {
-    let v = this.views.get(n);
-    if (v === undefined) this.views.set(n, (v = this.sorted.subarray(0, n)));
-    return v;
   }
 }
 
@@ -101,8 +142,8 @@ export class RankScratch {
 export function spearmanInto(x: ArrayLike<number>, y: ArrayLike<number>, n: number, scratch: RankScratch): number | null {
   if (n < 3) return null;
   scratch.ensure(n);
-  averageRanksInto(x, n, scratch.sorted, scratch.rx, scratch.sortedView(n));
-  averageRanksInto(y, n, scratch.sorted, scratch.ry, scratch.sortedView(n));
+  averageRanksInto(x, n, scratch, scratch.rx);
+  averageRanksInto(y, n, scratch, scratch.ry);
   return rhoFromRanks(scratch.rx, scratch.ry, n);
 }
 

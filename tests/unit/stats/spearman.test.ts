@@ -11,9 +11,25 @@ describe('averageRanksInto', () => {
   it('gives tied values the mean of their ranks', () => {
     const x = [3.5, 1, 3.5, 3.5, -2, 7];
     const out = new Float64Array(6);
-    averageRanksInto(x, 6, new Float64Array(6), out);
+    averageRanksInto(x, 6, new RankScratch(), out);
     // scipy.stats.rankdata([3.5, 1, 3.5, 3.5, -2, 7]) -> [4, 2, 4, 4, 1, 6] (SciPy 1.10.1)
     expect(Array.from(out)).toEqual([4, 2, 4, 4, 1, 6]);
+  });
+
+  it('is the definition, #less + (#equal + 1) / 2, for short lists (insertion sort) and long ones (merge sort)', () => {
+    const scratch = new RankScratch();
+    fc.assert(
+      fc.property(fc.array(fc.integer({ min: -20, max: 20 }), { minLength: 1, maxLength: 300 }), (x) => {
+        const out = new Float64Array(x.length);
+        averageRanksInto(x, x.length, scratch, out);
+        x.forEach((v, i) => {
+          const less = x.filter((w) => w < v).length;
+          const equal = x.filter((w) => w === v).length;
+          expect(out[i]).toBe(less + (equal + 1) / 2);
+        });
+      }),
+      { numRuns: 300 },
+    );
   });
 });
 
