@@ -12,7 +12,7 @@ import {
   isFlatList,
   listAggregate,
   qualityCounts,
-  radixSortedCopy,
+  radixSortInPlace,
   ruleViolated,
   type BinSpec,
   type QualityCounts,
@@ -130,7 +130,21 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
   };
 }
 
-/** The profile of one numeric feature: what a worker thread computes for its share of the features. */
+/** A sort buffer kept across the features one thread profiles (one column's worth, grown on demand). */
+export class SortScratch {
+  private buffer = new Float64Array(0);
+  of(n: number): Float64Array {
+    if (this.buffer.length < n) this.buffer = new Float64Array(n);
+    return this.buffer;
+  }
+}
+
+/**
+ * The profile of one numeric feature: what a worker thread computes for its share of the
+ * features. Consumes `values`: the within-list checks read it in row order, then its finite
+ * values are moved to its front and sorted there, and that prefix is the profile's sorted
+ * sample. A day so costs one copy of its columns in memory, not a column and its sorted copy.
+ */
 export function numericProfile(
   values: Float64Array,
   missing: Uint8Array | null,
@@ -138,21 +152,9 @@ export function numericProfile(
   g: ListGrouping,
   feature: Config['features'][number],
   bins: BinSpec | undefined,
+  scratch: SortScratch = new SortScratch(),
 ): NumericProfile {
   const quality = qualityCounts(values, missing, feature.range);
-
-  const finite = new Float64Array(quality.finite);
-  let k = 0;
-  // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
-  const sum: SplitSum = { small: 0, largeScaled: 0 };
-  for (let i = 0; i < values.length; i++) {
-    const v = values[i]!;
-    if (Number.isFinite(v)) {
-      finite[k++] = v;
-      addToSplitSum(sum, v);
-    }
-  }
-  const sorted = radixSortedCopy(finite);
 
   let withinList: WithinListCounts | null = null;
   if (feature.scope === 'item') {
@@ -161,13 +163,13 @@ export function numericProfile(
     let listsJudged = 0;
     let flatLists = 0;
     let ruleViolations = 0;
-    let scratch = new Float64Array(64);
+    let listScratch = new Float64Array(64);
     for (let l = 0; l < lists; l++) {
       const a = g.start[l]!;
       const b = g.start[l + 1]!;
       if (b - a < 2) continue;
-      if (scratch.length < b - a) scratch = new Float64Array((b - a) * 2);
-      const agg = listAggregate(values, g.order, a, b, missing, rule === 'rank', scratch);
+      if (listScratch.length < b - a) listScratch = new Float64Array((b - a) * 2);
+      const agg = listAggregate(values, g.order, a, b, missing, rule === 'rank', listScratch);
       if (agg.count < 2) continue;
       listsJudged++;
       if (isFlatList(agg)) flatLists++;
@@ -175,6 +177,20 @@ export function numericProfile(
     }
     withinList = { listsJudged, flatLists, ruleViolations };
   }
+  const association = feature.scope === 'item' && g.ranking !== undefined ? featureAssociation(values, g.ranking.served, feature.name !== g.ranking.scoreFeature) : undefined;
+
+  // Row order has served its purpose: the finite values move to the front and are sorted in place.
+  let k = 0;
+  // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
+  const sum: SplitSum = { small: 0, largeScaled: 0 };
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i]!;
+    if (Number.isFinite(v)) {
+      values[k++] = v;
+      addToSplitSum(sum, v);
+    }
+  }
+  const sorted = radixSortInPlace(values.subarray(0, k), scratch.of(k));
 
   const profile: NumericProfile = {
     kind: feature.kind === 'binary' ? 'binary' : 'numeric',
@@ -185,9 +201,7 @@ export function numericProfile(
     mean: k > 0 ? meanOfSplitSum(sum, k) : null,
     withinList,
   };
-  if (feature.scope === 'item' && g.ranking !== undefined) {
-    profile.association = featureAssociation(values, g.ranking.served, feature.name !== g.ranking.scoreFeature);
-  }
+  if (association !== undefined) profile.association = association;
   return profile;
 }
 
@@ -256,18 +270,19 @@ function categoricalProfile(cols: DayColumns, g: ListGrouping, fi: number, featu
 export type NumericProfiler = (cols: DayColumns, g: ListGrouping, indexes: number[], config: Config, bins: Record<string, BinSpec> | null) => Promise<NumericProfile[]>;
 
 /** Profiles every numeric feature on this thread. */
-export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, config, bins) =>
-  indexes.map((fi) => {
+export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, config, bins) => {
+  const scratch = new SortScratch();
+  return indexes.map((fi) => {
     const f = config.features[fi]!;
-    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name]);
+    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name], scratch);
     releaseColumn(cols, fi);
     return profile;
   });
+};
 
 /**
- * Drops a profiled column from the day's columns. A column and its sorted copy together
- * are what a day costs in memory; letting each column go as soon as it is profiled keeps
- * the peak near one copy of the day instead of two.
+ * Drops a profiled column from the day's columns: numericProfile has sorted it in place (it
+ * is the profile's sorted sample now), so it must not be read as a column again.
  */
 export function releaseColumn(cols: DayColumns, fi: number): void {
   cols.numeric[fi] = null;

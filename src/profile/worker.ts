@@ -1,12 +1,12 @@
 /**
  * Worker thread entry: profiles its share of a day's numeric features. The columns arrive
- * as typed arrays over SharedArrayBuffers (no copy); the sorted samples go back as
- * transferred buffers.
+ * as typed arrays over SharedArrayBuffers (no copy) and are sorted in place into the
+ * profiles' sorted samples, which go back over the same shared memory.
  */
 import { parentPort } from 'node:worker_threads';
 import type { Config } from '../config/index.ts';
 import type { BinSpec } from '../stats/index.ts';
-import { numericProfile, type ListGrouping } from './day.ts';
+import { SortScratch, numericProfile, type ListGrouping } from './day.ts';
 
 export interface ProfileRequest {
   lists: number;
@@ -16,8 +16,11 @@ export interface ProfileRequest {
 
 parentPort?.on('message', (req: ProfileRequest) => {
   try {
-    const profiles = req.jobs.map((j) => numericProfile(j.values, j.missing, req.lists, req.grouping, j.feature, j.bins));
-    parentPort!.postMessage({ ok: true, profiles }, profiles.map((p) => p.sortedSample.buffer as ArrayBuffer));
+    const scratch = new SortScratch();
+    const profiles = req.jobs.map((j) => numericProfile(j.values, j.missing, req.lists, req.grouping, j.feature, j.bins, scratch));
+    // A column on an ordinary buffer (not shared) is handed back rather than copied.
+    const owned = profiles.map((p) => p.sortedSample.buffer).filter((b): b is ArrayBuffer => b instanceof ArrayBuffer);
+    parentPort!.postMessage({ ok: true, profiles }, [...new Set(owned)]);
   } catch (err) {
     parentPort!.postMessage({ ok: false, error: err instanceof Error ? err.message : String(err) });
   }

@@ -1,8 +1,8 @@
 /**
  * Sorting of Float64 columns. Sorting dominates the CPU cost of a run (Kolmogorov-Smirnov,
  * bin counts of sorted values and distinct counts all start from sorted columns), so this
- * offers a radix sort next to the built-in comparison sort. It returns a sorted copy and
- * accepts NaN (sorted last); sortFloat64.ts in this folder sorts in place and rejects NaN.
+ * offers a radix sort next to the built-in comparison sort: a sorted copy that accepts NaN
+ * (sorted last), and an in-place sort of NaN-free values with a caller's scratch buffer.
  */
 
 const DIGITS = 65536;
@@ -41,33 +41,46 @@ export function radixSortedCopy(values: Float64Array): Float64Array {
   if (!LITTLE_ENDIAN) return values.slice().sort(); // word layout below assumes little-endian
   const total = values.length;
   // Copy without NaNs; NaNs go to the end afterwards.
-  let a = new Float64Array(total);
+  const a = new Float64Array(total);
   let n = 0;
   for (let i = 0; i < total; i++) {
     const x = values[i];
     if (x === x) a[n++] = x;
   }
-  if (n < SMALL) {
-    // The histograms alone cost 4 x 65536 steps: small columns go to the built-in sort.
-    a.subarray(0, n).sort();
-    a.fill(Number.NaN, n);
-    return a;
-  }
-  let b = new Float64Array(total);
-  let aw = new Uint32Array(a.buffer);
-  let bw = new Uint32Array(b.buffer);
+  radixSortInPlace(a.subarray(0, n), n < SMALL ? undefined : new Float64Array(n));
+  if (n < total) a.fill(Number.NaN, n);
+  return a;
+}
+
+/**
+ * Sorts a column of non-NaN doubles in place, in the order of Float64Array.prototype.sort
+ * (numeric, -0 before +0), by the radix sort of radixSortedCopy; returns `values`.
+ *
+ * Why: a day's column, once its row order has served the within-list checks, becomes its own
+ * sorted sample, so a day costs one copy of its columns in memory and not two. `scratch`
+ * (length >= values.length) is the one buffer the passes need; a caller sorting many columns
+ * passes the same one each time. Columns of fewer than 4096 values use the built-in sort.
+ */
+export function radixSortInPlace(values: Float64Array, scratch?: Float64Array): Float64Array {
+  const n = values.length;
+  if (n < SMALL || !LITTLE_ENDIAN) return values.sort();
+  if (scratch === undefined || scratch.length < n) scratch = new Float64Array(n);
+  let a = values;
+  let b = scratch.length === n ? scratch : scratch.subarray(0, n);
+  let aw = new Uint32Array(a.buffer, a.byteOffset, 2 * n);
+  let bw = new Uint32Array(b.buffer, b.byteOffset, 2 * n);
   // Little-endian word order: word 2i is the low half of value i.
   const hist = new Uint32Array(4 * DIGITS);
   for (let i = 0; i < n; i++) {
-    const hi = aw[2 * i + 1];
-    const lo = aw[2 * i];
+    const hi = aw[2 * i + 1]!;
+    const lo = aw[2 * i]!;
     const neg = hi >> 31; // -1 for negative numbers, 0 otherwise
     const kh = (hi ^ (neg | 0x80000000)) >>> 0;
     const kl = (lo ^ neg) >>> 0;
-    hist[kl & 0xffff]++;
-    hist[DIGITS + (kl >>> 16)]++;
-    hist[2 * DIGITS + (kh & 0xffff)]++;
-    hist[3 * DIGITS + (kh >>> 16)]++;
+    hist[kl & 0xffff]!++;
+    hist[DIGITS + (kl >>> 16)]!++;
+    hist[2 * DIGITS + (kh & 0xffff)]!++;
+    hist[3 * DIGITS + (kh >>> 16)]!++;
   }
   for (let pass = 0; pass < 4; pass++) {
     const off = pass * DIGITS;
@@ -76,18 +89,18 @@ export function radixSortedCopy(values: Float64Array): Float64Array {
     if (hist[off + first] === n) continue; // one digit value for all: order unchanged
     let sum = 0;
     for (let d = 0; d < DIGITS; d++) {
-      const c = hist[off + d];
+      const c = hist[off + d]!;
       hist[off + d] = sum;
       sum += c;
     }
     const highWord = pass >= 2;
     const shift = (pass & 1) === 1 ? 16 : 0;
     for (let i = 0; i < n; i++) {
-      const hi = aw[2 * i + 1];
+      const hi = aw[2 * i + 1]!;
       const neg = hi >> 31;
-      const key = highWord ? (hi ^ (neg | 0x80000000)) >>> 0 : (aw[2 * i] ^ neg) >>> 0;
+      const key = highWord ? (hi ^ (neg | 0x80000000)) >>> 0 : (aw[2 * i]! ^ neg) >>> 0;
       const d = (key >>> shift) & 0xffff;
-      b[hist[off + d]++] = a[i];
+      b[hist[off + d]!++] = a[i]!;
     }
     const t = a;
     a = b;
@@ -96,6 +109,7 @@ export function radixSortedCopy(values: Float64Array): Float64Array {
     aw = bw;
     bw = tw;
   }
-  if (n < total) a.fill(Number.NaN, n);
-  return a;
+  // An odd number of passes leaves the order in the scratch buffer.
+  if (a !== values) values.set(a);
+  return values;
 }

@@ -19,8 +19,8 @@
  *   PLUMBLINE_BENCH_DATABASE_URL=postgres://postgres@127.0.0.1:5432/test npx tsx tests/bench/targets.bench.ts
  *
  * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_SHARDS=0 skips part 3 (it
- * starts two servers and copies the rows into them). Creates and drops its own schemas,
- * database and servers.
+ * starts two servers and copies the rows into them); PLUMBLINE_BENCH_PARTS=1 (or 1,2) runs
+ * only the parts named. Creates and drops its own schemas, database and servers.
  */
 import { execFileSync, spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
@@ -211,49 +211,55 @@ export async function main(): Promise<void> {
     await client.query(`VACUUM ANALYZE ${table}`);
     console.log(`targets.bench: generated ${[...BASELINE, SMALL, DAY].reduce((s, d) => s + d.rows, 0).toLocaleString('en-US')} rows x ${FEATURES} features in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
 
+    const parts = (process.env['PLUMBLINE_BENCH_PARTS'] ?? '1,2,3').split(',').map((p) => p.trim());
     // ---- 1. stream engine against the binary COPY floor
-    const streamConfig = writeConfig(dir, 'stream', table, 'stream', stores[0]!);
-    cliRun(streamConfig, SMALL.date, url, url); // builds and stores the baseline (not timed)
-    const fixed = [cliRun(streamConfig, SMALL.date, url, url), cliRun(streamConfig, SMALL.date, url, url)];
-    const fixedMiB = Math.min(...fixed.map((r) => r.maxRssMiB));
-    const columnMiB = (DAY.rows * FEATURES * 8) / 2 ** 20;
-    const floors: number[] = [];
-    const streams: Measured[] = [];
-    for (let i = 0; i < REPS; i++) {
-      floors.push(psqlSeconds(url, copyFloorSql(table, DAY.date)));
-      streams.push(cliRun(streamConfig, DAY.date, url, url));
+    if (parts.includes('1')) {
+      const streamConfig = writeConfig(dir, 'stream', table, 'stream', stores[0]!);
+      cliRun(streamConfig, SMALL.date, url, url); // builds and stores the baseline (not timed)
+      const fixed = [cliRun(streamConfig, SMALL.date, url, url), cliRun(streamConfig, SMALL.date, url, url)];
+      const fixedMiB = Math.min(...fixed.map((r) => r.maxRssMiB));
+      const columnMiB = (DAY.rows * FEATURES * 8) / 2 ** 20;
+      const floors: number[] = [];
+      const streams: Measured[] = [];
+      for (let i = 0; i < REPS; i++) {
+        floors.push(psqlSeconds(url, copyFloorSql(table, DAY.date)));
+        streams.push(cliRun(streamConfig, DAY.date, url, url));
+      }
+      console.log('');
+      console.log(`1. stream engine, ${DAY.rows.toLocaleString('en-US')} rows x ${FEATURES} features, baseline stored, node dist/cli.js run (load average now ${loadAverage()})`);
+      console.log('   rep   run (s)   COPY floor (s)   ratio   peak RSS (MiB)');
+      streams.forEach((r, i) => console.log(`   ${String(i + 1).padStart(3)}   ${r.seconds.toFixed(2).padStart(7)}   ${floors[i]!.toFixed(2).padStart(14)}   ${(r.seconds / floors[i]!).toFixed(2).padStart(5)}   ${r.maxRssMiB.toFixed(0).padStart(14)}`));
+      const streamRatios = streams.map((r, i) => r.seconds / floors[i]!);
+      const rssRatios = streams.map((r) => (r.maxRssMiB - fixedMiB) / columnMiB);
+      console.log(`   RATIO run / COPY floor: ${range(streamRatios)} (target <= 1.25)`);
+      console.log(`   RATIO (peak RSS - fixed ${fixedMiB.toFixed(0)} MiB) / feature columns as float64 (${columnMiB.toFixed(0)} MiB): ${range(rssRatios)} (target <= 1.2; the fixed overhead is the peak RSS of the same command on a ${SMALL.rows.toLocaleString('en-US')}-row day)`);
+      printSplit('stream', streams);
     }
-    console.log('');
-    console.log(`1. stream engine, ${DAY.rows.toLocaleString('en-US')} rows x ${FEATURES} features, baseline stored, node dist/cli.js run (load average now ${loadAverage()})`);
-    console.log('   rep   run (s)   COPY floor (s)   ratio   peak RSS (MiB)');
-    streams.forEach((r, i) => console.log(`   ${String(i + 1).padStart(3)}   ${r.seconds.toFixed(2).padStart(7)}   ${floors[i]!.toFixed(2).padStart(14)}   ${(r.seconds / floors[i]!).toFixed(2).padStart(5)}   ${r.maxRssMiB.toFixed(0).padStart(14)}`));
-    const streamRatios = streams.map((r, i) => r.seconds / floors[i]!);
-    const rssRatios = streams.map((r) => (r.maxRssMiB - fixedMiB) / columnMiB);
-    console.log(`   RATIO run / COPY floor: ${range(streamRatios)} (target <= 1.25)`);
-    console.log(`   RATIO (peak RSS - fixed ${fixedMiB.toFixed(0)} MiB) / feature columns as float64 (${columnMiB.toFixed(0)} MiB): ${range(rssRatios)} (target <= 1.2; the fixed overhead is the peak RSS of the same command on a ${SMALL.rows.toLocaleString('en-US')}-row day)`);
-    printSplit('stream', streams);
+    if (!parts.includes('2') && !parts.includes('3')) return;
 
     // ---- 2. pushdown engine against the one-statement histogram of the same bins
     const pushConfig = writeConfig(dir, 'push', table, 'pushdown', stores[1]!);
     cliRun(pushConfig, DAY.date, url, url); // builds and stores the baseline (not timed)
-    const refSql = await histogramSql(url, pushConfig, stores[1]!, table, DAY.date);
-    const refs: number[] = [];
-    const pushes: Measured[] = [];
-    for (let i = 0; i < REPS; i++) {
-      refs.push(psqlSeconds(url, refSql));
-      pushes.push(cliRun(pushConfig, DAY.date, url, url));
+    if (parts.includes('2')) {
+      const refSql = await histogramSql(url, pushConfig, stores[1]!, table, DAY.date);
+      const refs: number[] = [];
+      const pushes: Measured[] = [];
+      for (let i = 0; i < REPS; i++) {
+        refs.push(psqlSeconds(url, refSql));
+        pushes.push(cliRun(pushConfig, DAY.date, url, url));
+      }
+      console.log('');
+      console.log(`2. pushdown engine, same day, one server (load average now ${loadAverage()})`);
+      console.log('   rep   run (s)   one-statement histogram (s)   ratio   peak RSS (MiB)');
+      pushes.forEach((r, i) => console.log(`   ${String(i + 1).padStart(3)}   ${r.seconds.toFixed(2).padStart(7)}   ${refs[i]!.toFixed(2).padStart(27)}   ${(r.seconds / refs[i]!).toFixed(2).padStart(5)}   ${r.maxRssMiB.toFixed(0).padStart(14)}`));
+      console.log(`   RATIO run / one-statement histogram: ${range(pushes.map((r, i) => r.seconds / refs[i]!))} (target <= 1.5)`);
+      printSplit('pushdown, one server', pushes);
     }
-    console.log('');
-    console.log(`2. pushdown engine, same day, one server (load average now ${loadAverage()})`);
-    console.log('   rep   run (s)   one-statement histogram (s)   ratio   peak RSS (MiB)');
-    pushes.forEach((r, i) => console.log(`   ${String(i + 1).padStart(3)}   ${r.seconds.toFixed(2).padStart(7)}   ${refs[i]!.toFixed(2).padStart(27)}   ${(r.seconds / refs[i]!).toFixed(2).padStart(5)}   ${r.maxRssMiB.toFixed(0).padStart(14)}`));
-    console.log(`   RATIO run / one-statement histogram: ${range(pushes.map((r, i) => r.seconds / refs[i]!))} (target <= 1.5)`);
-    printSplit('pushdown, one server', pushes);
 
     // ---- 3. two shards against one server
-    if (process.env['PLUMBLINE_BENCH_SHARDS'] === '0') {
+    if (process.env['PLUMBLINE_BENCH_SHARDS'] === '0' || !parts.includes('3')) {
       console.log('');
-      console.log('3. two shards: skipped (PLUMBLINE_BENCH_SHARDS=0)');
+      console.log('3. two shards: skipped (PLUMBLINE_BENCH_SHARDS=0 or PLUMBLINE_BENCH_PARTS)');
       return;
     }
     try {

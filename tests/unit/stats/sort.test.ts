@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { radixSortedCopy } from '../../../src/stats/index.ts';
+import { radixSortInPlace, radixSortedCopy } from '../../../src/stats/index.ts';
 import { normalSample } from './prng.ts';
 
 function sameBits(a: Float64Array, b: Float64Array): boolean {
@@ -56,5 +56,25 @@ describe('radixSortedCopy (radix sort)', () => {
     expect(Number.isNaN(s[2])).toBe(true);
     expect(radixSortedCopy(new Float64Array(0)).length).toBe(0);
     expect(Array.from(radixSortedCopy(Float64Array.of(Number.NaN, 5)))).toEqual([5, Number.NaN]);
+  });
+});
+
+describe('radixSortInPlace', () => {
+  it('sorts a subarray in place like the built-in sort, with a larger shared scratch, whatever the number of passes', () => {
+    const scratch = new Float64Array(20_000);
+    // Narrow ranges skip high-digit passes, so the order ends in the column or in the scratch.
+    const shapes = [normalSample(1, 9000), Float64Array.from({ length: 9000 }, (_, i) => (i * 7919) % 9000), Float64Array.from(normalSample(2, 9000), (x) => Math.round(x * 100) / 100)];
+    for (const values of shapes) {
+      const column = new Float64Array(values.length + 10).fill(-1);
+      column.set(values, 5);
+      const part = column.subarray(5, 5 + values.length);
+      const result = radixSortInPlace(part, scratch);
+      expect(result).toBe(part);
+      expect(sameBits(part, values.slice().sort())).toBe(true);
+      // Nothing outside the subarray was touched.
+      expect(Array.from(column.subarray(0, 5))).toEqual([-1, -1, -1, -1, -1]);
+      expect(Array.from(column.subarray(5 + values.length))).toEqual([-1, -1, -1, -1, -1]);
+    }
+    expect(Array.from(radixSortInPlace(Float64Array.of(2, -0, 0, -1)))).toEqual([-1, -0, 0, 2]);
   });
 });
