@@ -169,9 +169,12 @@ class PairScratch {
  * pairs with both values finite and both sides vary (rho is undefined otherwise). Ranks are
  * taken among the complete pairs only, as SciPy's spearmanr does after dropping missing pairs.
  */
-export function featureAssociation(values: Float64Array, served: ServedOrder, withScore: boolean): AssociationCounts {
+export function featureAssociation(values: Float64Array, served: ServedOrder, withScore: boolean, record?: { position: Float64Array; score: Float64Array | null }): AssociationCounts {
   const position = emptyCorrelationSums();
   const score = withScore && served.score !== null ? emptyCorrelationSums() : null;
+  // Each list's rho, when recorded (NaN: the list did not count).
+  const recPosition = record?.position.fill(Number.NaN);
+  const recScore = score === null ? undefined : record?.score?.fill(Number.NaN);
   const sp = new PairScratch();
   const lists = served.start.length - 1;
   for (let l = 0; l < lists; l++) {
@@ -191,15 +194,20 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
     }
     if (m < 3) continue;
     averageRanksInto(sp.x, m, sp.ranks, sp.rx);
-    if (m === n) addRho(position, rhoFromRanks(sp.rx, served.positionRank, n, e0));
+    let rhoPosition: number | null;
+    if (m === n) rhoPosition = rhoFromRanks(sp.rx, served.positionRank, n, e0);
     else {
       ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
-      addRho(position, rhoFromRanks(sp.rx, sp.ry, m));
+      rhoPosition = rhoFromRanks(sp.rx, sp.ry, m);
     }
+    addRho(position, rhoPosition);
+    if (recPosition !== undefined && rhoPosition !== null) recPosition[l] = rhoPosition;
     if (score === null) continue;
     const s = served.score!;
     if (m === n && served.scoreComplete![l] === 1) {
-      addRho(score, rhoFromRanks(sp.rx, served.scoreRank!, n, e0));
+      const rho = rhoFromRanks(sp.rx, served.scoreRank!, n, e0);
+      addRho(score, rho);
+      if (recScore !== undefined && rho !== null) recScore[l] = rho;
       continue;
     }
     let q = 0;
@@ -215,9 +223,24 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
     if (q < 3) continue;
     averageRanksInto(sp.x, q, sp.ranks, sp.rx);
     averageRanksInto(sp.y, q, sp.ranks, sp.ry);
-    addRho(score, rhoFromRanks(sp.rx, sp.ry, q));
+    const rho = rhoFromRanks(sp.rx, sp.ry, q);
+    addRho(score, rho);
+    if (recScore !== undefined && rho !== null) recScore[l] = rho;
   }
   return { position, score };
+}
+
+/**
+ * The association sums of the lists marked in `member` (index = list), from recorded per-list
+ * rhos, added in list order as featureAssociation adds them (so the sums are the same bits).
+ */
+export function correlationSumsOfLists(rhos: Float64Array, member: Uint8Array): RankCorrelationSums {
+  const sums = emptyCorrelationSums();
+  for (let l = 0; l < rhos.length; l++) {
+    const rho = rhos[l]!;
+    if (member[l] === 1 && !Number.isNaN(rho)) addRho(sums, rho);
+  }
+  return sums;
 }
 
 /**

@@ -19,7 +19,7 @@ import {
   type SplitSum,
 } from '../stats/index.ts';
 import { featureAssociation, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
-import { NULL_POSITION, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
+import { LIST_BREAKS_RULE, LIST_FLAT, LIST_JUDGED, NULL_POSITION, type AssociationCounts, type PerListRecords, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
 
 /** Lists longer than this share the last list-size bin. */
 export const MAX_LIST_SIZE_BIN = 100;
@@ -30,6 +30,12 @@ export interface ListGrouping {
   order: Int32Array;
   /** Served order and score for the within-list association (set by buildDayProfile). */
   ranking?: { served: ServedOrder; scoreFeature: string | null };
+  /**
+   * The within-list checks of numeric features (rules, flat lists, association): `record`
+   * computes them and keeps each list's outcome too (NumericProfile.perList); `skip` leaves
+   * them out, for a slice of whole lists that takes them from the day's records instead.
+   */
+  perList?: 'record' | 'skip';
 }
 
 /** Counting sort of row indexes by list index: O(rows + lists). Rows without a list are left out. */
@@ -130,6 +136,24 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
   };
 }
 
+/** The values of a column at the given rows, in that order. */
+export function gatherValues(column: Float64Array, rows: Int32Array, shared = false): Float64Array {
+  const out = shared ? new Float64Array(new SharedArrayBuffer(rows.length * 8)) : new Float64Array(rows.length);
+  for (let k = 0; k < rows.length; k++) out[k] = column[rows[k]!]!;
+  return out;
+}
+
+/** Missing codes at the given rows, or null when none of them is missing. */
+function gatherMissing(missing: Uint8Array, rows: Int32Array): Uint8Array | null {
+  const out = new Uint8Array(rows.length);
+  let any = false;
+  for (let k = 0; k < rows.length; k++) {
+    out[k] = missing[rows[k]!]!;
+    if (out[k] !== 0) any = true;
+  }
+  return any ? out : null;
+}
+
 /** A sort buffer kept across the features one thread profiles (one column's worth, grown on demand). */
 export class SortScratch {
   private buffer = new Float64Array(0);
@@ -141,23 +165,30 @@ export class SortScratch {
 
 /**
  * The profile of one numeric feature: what a worker thread computes for its share of the
- * features. Consumes `values`: the within-list checks read it in row order, then its finite
+ * features. Consumes `column`: the within-list checks read it in row order, then its finite
  * values are moved to its front and sorted there, and that prefix is the profile's sorted
  * sample. A day so costs one copy of its columns in memory, not a column and its sorted copy.
+ * With `parentRows` (a slice, DayColumns.parentRows) the values at those rows are gathered
+ * first and the copy is consumed instead; the column is left as it was.
  */
 export function numericProfile(
-  values: Float64Array,
-  missing: Uint8Array | null,
+  column: Float64Array,
+  columnMissing: Uint8Array | null,
   lists: number,
   g: ListGrouping,
   feature: Config['features'][number],
   bins: BinSpec | undefined,
   scratch: SortScratch = new SortScratch(),
+  parentRows: Int32Array | null = null,
 ): NumericProfile {
+  const values = parentRows === null ? column : gatherValues(column, parentRows);
+  const missing = parentRows === null || columnMissing === null ? columnMissing : gatherMissing(columnMissing, parentRows);
   const quality = qualityCounts(values, missing, feature.range);
 
+  const record = g.perList === 'record';
+  const perList: PerListRecords | undefined = record ? { flags: new Uint8Array(lists), positionRho: null, scoreRho: null } : undefined;
   let withinList: WithinListCounts | null = null;
-  if (feature.scope === 'item') {
+  if (feature.scope === 'item' && g.perList !== 'skip') {
     const rule = feature.withinList?.rule;
     const tolerance = feature.withinList?.tolerance ?? 0;
     let listsJudged = 0;
@@ -172,12 +203,27 @@ export function numericProfile(
       const agg = listAggregate(values, g.order, a, b, missing, rule === 'rank', listScratch);
       if (agg.count < 2) continue;
       listsJudged++;
-      if (isFlatList(agg)) flatLists++;
-      else if (rule !== undefined && ruleViolated(rule, agg, tolerance)) ruleViolations++;
+      let flags = LIST_JUDGED;
+      if (isFlatList(agg)) {
+        flatLists++;
+        flags |= LIST_FLAT;
+      } else if (rule !== undefined && ruleViolated(rule, agg, tolerance)) {
+        ruleViolations++;
+        flags |= LIST_BREAKS_RULE;
+      }
+      if (perList !== undefined) perList.flags[l] = flags;
     }
     withinList = { listsJudged, flatLists, ruleViolations };
   }
-  const association = feature.scope === 'item' && g.ranking !== undefined ? featureAssociation(values, g.ranking.served, feature.name !== g.ranking.scoreFeature) : undefined;
+  let association: AssociationCounts | undefined;
+  if (feature.scope === 'item' && g.ranking !== undefined && g.perList !== 'skip') {
+    const withScore = feature.name !== g.ranking.scoreFeature;
+    if (perList !== undefined) {
+      perList.positionRho = new Float64Array(lists);
+      perList.scoreRho = withScore && g.ranking.served.score !== null ? new Float64Array(lists) : null;
+    }
+    association = featureAssociation(values, g.ranking.served, withScore, perList === undefined ? undefined : { position: perList.positionRho!, score: perList.scoreRho });
+  }
 
   // Row order has served its purpose: the finite values move to the front and are sorted in place.
   let k = 0;
@@ -202,6 +248,7 @@ export function numericProfile(
     withinList,
   };
   if (association !== undefined) profile.association = association;
+  if (perList !== undefined) profile.perList = perList;
   return profile;
 }
 
@@ -274,7 +321,7 @@ export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, con
   const scratch = new SortScratch();
   return indexes.map((fi) => {
     const f = config.features[fi]!;
-    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name], scratch);
+    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name], scratch, cols.parentRows ?? null);
     releaseColumn(cols, fi);
     return profile;
   });
@@ -291,15 +338,27 @@ export function releaseColumn(cols: DayColumns, fi: number): void {
 
 /**
  * The profile of one day; `bins` (the baseline's) fill in binCounts when given. Consumes
- * the numeric columns of `cols` (each is released once profiled).
+ * the numeric columns of `cols` (each is released once profiled). `perList`: see ListGrouping.
  */
-export async function buildDayProfile(cols: DayColumns, config: Config, bins: Record<string, BinSpec> | null, profiler: NumericProfiler = profileOnThisThread): Promise<DayProfile> {
+export async function buildDayProfile(
+  cols: DayColumns,
+  config: Config,
+  bins: Record<string, BinSpec> | null,
+  profiler: NumericProfiler = profileOnThisThread,
+  perList?: ListGrouping['perList'],
+): Promise<DayProfile> {
   const g = groupByList(cols.listOf, cols.lists);
+  if (perList !== undefined) g.perList = perList;
   // Served order (and the score) once per day, before the profiler releases the score column.
   const scoreIndex = scoreFeatureIndex(config);
-  const served = servedOrder(cols.position, g, cols.lists, scoreIndex >= 0 ? cols.numeric[scoreIndex] ?? null : null);
-  g.ranking = { served, scoreFeature: scoreIndex >= 0 ? config.features[scoreIndex]!.name : null };
-  const outcome = cols.label !== null ? outcomeCounts(cols.label, served, config.outcome.ndcgAt) : null;
+  const scoreColumn = scoreIndex >= 0 ? cols.numeric[scoreIndex] ?? null : null;
+  // Not needed by a slice that takes its within-list checks from the day, unless for outcomes.
+  const served =
+    perList === 'skip' && cols.label === null
+      ? null
+      : servedOrder(cols.position, g, cols.lists, scoreColumn !== null && cols.parentRows !== undefined ? gatherValues(scoreColumn, cols.parentRows) : scoreColumn);
+  if (served !== null) g.ranking = { served, scoreFeature: scoreIndex >= 0 ? config.features[scoreIndex]!.name : null };
+  const outcome = cols.label !== null && served !== null ? outcomeCounts(cols.label, served, config.outcome.ndcgAt) : null;
   const features: Record<string, FeatureProfile> = {};
   const numeric = config.features.map((f, fi) => (f.kind === 'categorical' ? -1 : fi)).filter((fi) => fi >= 0);
   const numericProfiles = profiler(cols, g, numeric, config, bins);

@@ -14,8 +14,9 @@
  */
 import type { Config } from '../config/index.ts';
 import type { BinSpec } from '../stats/index.ts';
-import { buildDayProfile, type NumericProfiler, profileOnThisThread } from './day.ts';
-import { NULL_POSITION, type CategoricalColumn, type DayColumns, type SliceProfile } from './types.ts';
+import { correlationSumsOfLists } from './association.ts';
+import { buildDayProfile, gatherValues, type NumericProfiler, profileOnThisThread } from './day.ts';
+import { LIST_BREAKS_RULE, LIST_FLAT, LIST_JUDGED, NULL_POSITION, type CategoricalColumn, type DayColumns, type DayProfile, type NumericProfile, type SliceProfile } from './types.ts';
 
 /** Longest segment value label, in characters. */
 export const SEGMENT_LABEL_MAX = 64;
@@ -135,12 +136,6 @@ export function sliceRows(cols: DayColumns, def: SliceDef): Int32Array {
   return rows;
 }
 
-function gatherFloat(src: Float64Array, rows: Int32Array, shared: boolean): Float64Array {
-  const out = shared ? new Float64Array(new SharedArrayBuffer(rows.length * 8)) : new Float64Array(rows.length);
-  for (let k = 0; k < rows.length; k++) out[k] = src[rows[k]!]!;
-  return out;
-}
-
 /** Codes of a subset with a dictionary of the values that occur in it (so distinct counts hold). */
 function gatherCategorical(col: CategoricalColumn, rows: Int32Array): CategoricalColumn {
   const remap = new Int32Array(col.dictionary.length).fill(-1);
@@ -163,7 +158,8 @@ function gatherCategorical(col: CategoricalColumn, rows: Int32Array): Categorica
 
 /**
  * The columns of a slice: the given rows of every column, lists renumbered (a list's rows in
- * the slice form a list of the slice). The day's columns are not changed.
+ * the slice form a list of the slice). Numeric columns are not copied here: the slice refers
+ * to the day's (DayColumns.parentRows). The day's columns are not changed.
  */
 export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
   const listMap = new Int32Array(cols.lists).fill(-1);
@@ -180,16 +176,10 @@ export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
   }
   const position = new Int32Array(rows.length);
   for (let k = 0; k < rows.length; k++) position[k] = cols.position[rows[k]!]!;
-  const missing = cols.missing.map((m) => {
-    if (m === null) return null;
-    const out = new Uint8Array(new SharedArrayBuffer(rows.length));
-    let any = false;
-    for (let k = 0; k < rows.length; k++) {
-      out[k] = m[rows[k]!]!;
-      if (out[k] !== 0) any = true;
-    }
-    return any ? out : null;
-  });
+  // Rows in the day's own columns (through the day's parent rows when it is a slice itself);
+  // shared, so that worker threads read them without a copy.
+  const parentRows = new Int32Array(new SharedArrayBuffer(Math.max(1, rows.length) * 4)).subarray(0, rows.length);
+  for (let k = 0; k < rows.length; k++) parentRows[k] = cols.parentRows === undefined ? rows[k]! : cols.parentRows[rows[k]!]!;
   // A sampled day stands for all its rows; so does each slice of it.
   const scale = cols.rows > 0 ? cols.totalRows / cols.rows : 1;
   return {
@@ -199,11 +189,13 @@ export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
     sampled: cols.sampled,
     listOf,
     lists,
-    itemHash: gatherFloat(cols.itemHash, rows, false),
+    itemHash: gatherValues(cols.itemHash, rows),
     position,
-    label: cols.label === null ? null : gatherFloat(cols.label, rows, false),
-    numeric: cols.numeric.map((v) => (v === null ? null : gatherFloat(v, rows, true))),
-    missing,
+    label: cols.label === null ? null : gatherValues(cols.label, rows),
+    // The day's numeric columns, gathered feature by feature by the profiling thread.
+    numeric: cols.numeric.slice(),
+    missing: cols.missing.slice(),
+    parentRows,
     categorical: cols.categorical.map((c) => (c === null ? null : gatherCategorical(c, rows))),
   };
 }
@@ -232,4 +224,94 @@ export async function buildSliceProfiles(
     out.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sub, config, binsOf(def.name), profiler) });
   }
   return out;
+}
+
+/**
+ * For a slice's rows: per list of the day, 1 when the list lies wholly in the slice; null when
+ * some list lies partly in it (a segment value that changes inside a list).
+ */
+export function wholeListsOf(cols: DayColumns, rows: Int32Array, listSizes: Int32Array): Uint8Array | null {
+  const inSlice = new Int32Array(cols.lists);
+  for (let k = 0; k < rows.length; k++) {
+    const l = cols.listOf[rows[k]!]!;
+    if (l >= 0) inSlice[l]!++;
+  }
+  const member = new Uint8Array(cols.lists);
+  for (let l = 0; l < cols.lists; l++) {
+    if (inSlice[l] === 0) continue;
+    if (inSlice[l] !== listSizes[l]) return null;
+    member[l] = 1;
+  }
+  return member;
+}
+
+/** The within-list checks of a slice of whole lists, from the day's per-list records. */
+function fillFromDayLists(slice: NumericProfile, day: NumericProfile, member: Uint8Array): void {
+  const rec = day.perList;
+  if (rec === undefined) throw new Error('the day was profiled without per-list records');
+  if (day.withinList !== null) {
+    let listsJudged = 0;
+    let flatLists = 0;
+    let ruleViolations = 0;
+    for (let l = 0; l < member.length; l++) {
+      if (member[l] !== 1) continue;
+      const f = rec.flags[l]!;
+      if (f & LIST_JUDGED) listsJudged++;
+      if (f & LIST_FLAT) flatLists++;
+      if (f & LIST_BREAKS_RULE) ruleViolations++;
+    }
+    slice.withinList = { listsJudged, flatLists, ruleViolations };
+  }
+  if (day.association !== undefined && day.association !== null && rec.positionRho !== null) {
+    slice.association = { position: correlationSumsOfLists(rec.positionRho, member), score: rec.scoreRho === null ? null : correlationSumsOfLists(rec.scoreRho, member) };
+  }
+}
+
+/**
+ * The day's profile and its slices' (stream engine). Slices are profiled first, on copies of
+ * their rows (profiling the whole day consumes its columns). A segment slice made of whole
+ * lists (the usual case: the segment is a list-level column) skips its within-list checks,
+ * the costliest part of a profile, and takes them from the day's own per-list results, which
+ * are the same lists: the sums come out the same as profiling the slice in full.
+ */
+export async function buildDayAndSliceProfiles(
+  cols: DayColumns,
+  config: Config,
+  bins: Record<string, BinSpec> | null,
+  defs: readonly SliceDef[],
+  binsOf: (slice: string) => Record<string, BinSpec> | null,
+  sliceProfiler: NumericProfiler = profileOnThisThread,
+  dayProfiler: NumericProfiler = profileOnThisThread,
+): Promise<{ profile: DayProfile; slices: SliceProfile[]; /** Time spent on the slices (before the whole day). */ sliceMilliseconds: number }> {
+  const t0 = performance.now();
+  const listSizes = new Int32Array(cols.lists);
+  for (let i = 0; i < cols.rows; i++) {
+    const l = cols.listOf[i]!;
+    if (l >= 0) listSizes[l]!++;
+  }
+  const slices: SliceProfile[] = [];
+  const members: (Uint8Array | null)[] = [];
+  // One slice at a time: its copy of the columns is released (profiled) before the next is made.
+  for (const def of defs) {
+    const rows = sliceRows(cols, def);
+    const member = def.kind === 'segment' ? wholeListsOf(cols, rows, listSizes) : null;
+    members.push(member);
+    slices.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(subsetColumns(cols, rows), config, binsOf(def.name), sliceProfiler, member === null ? undefined : 'skip') });
+  }
+  const sliceMilliseconds = performance.now() - t0;
+  const fromDay = members.some((m) => m !== null);
+  const profile = await buildDayProfile(cols, config, bins, dayProfiler, fromDay ? 'record' : undefined);
+  if (fromDay) {
+    slices.forEach((s, i) => {
+      const member = members[i];
+      if (member === null || member === undefined) return;
+      for (const [name, f] of Object.entries(s.profile.features)) {
+        const day = profile.features[name];
+        if (f.kind !== 'categorical' && day !== undefined && day.kind !== 'categorical') fillFromDayLists(f, day, member);
+      }
+    });
+    // The records served the slices; they are not part of a stored profile.
+    for (const f of Object.values(profile.features)) if (f.kind !== 'categorical') delete f.perList;
+  }
+  return { profile, slices, sliceMilliseconds };
 }

@@ -102,6 +102,7 @@ export function profilerPool(threads: number = availableParallelism(), workerUrl
           request(s, {
             lists: cols.lists,
             grouping: g,
+            parentRows: cols.parentRows ?? null,
             jobs: share.map((fi) => {
               const feature = config.features[fi]!;
               const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };

@@ -35,6 +35,12 @@ export interface NumericProfile {
   /** Within-list association with the served order and the score (item-level numeric features). */
   association?: AssociationCounts | null;
   /**
+   * In memory only, when asked for (ListGrouping.perList = 'record'): the within-list checks
+   * per list of the day, from which slices made of whole lists take theirs (profile/slices.ts).
+   * Never stored.
+   */
+  perList?: PerListRecords;
+  /**
    * Pushdown engine only: exact counts of the day's finite values beyond the baseline's
    * extreme-value bounds (PushdownSpecs.extremeBounds), with the day's exact extremes.
    */
@@ -119,6 +125,22 @@ export interface DayProfile {
   /** As stored: the names of the slices profiled with this day. */
   sliceNames?: string[];
 }
+
+/**
+ * One numeric feature's within-list outcome per list of a day (index = list). `flags`: bit 0
+ * the list was judged, bit 1 it is flat, bit 2 it breaks the feature's rule. The rho arrays
+ * hold each list's Spearman correlation, NaN where the list was not counted; null when the
+ * feature has no such association.
+ */
+export interface PerListRecords {
+  flags: Uint8Array;
+  positionRho: Float64Array | null;
+  scoreRho: Float64Array | null;
+}
+
+export const LIST_JUDGED = 1;
+export const LIST_FLAT = 2;
+export const LIST_BREAKS_RULE = 4;
 
 /** A slice's profile of one day. */
 export interface SliceProfile {
@@ -224,6 +246,13 @@ export interface DayColumns {
   categorical: (CategoricalColumn | null)[];
   /** Per segment column of config.slices.segments, its text value per row (absent when none are configured). */
   segments?: CategoricalColumn[];
+  /**
+   * Set on a slice's columns (profile/slices.ts subsetColumns): `numeric` and `missing` are then
+   * the whole day's columns, and this slice's row k is their row parentRows[k]. The thread that
+   * profiles a feature gathers its values, so the slice's numeric columns are never all copied
+   * at once. Every other column is the slice's own.
+   */
+  parentRows?: Int32Array;
 }
 
 /** The position of a row whose position is null. */

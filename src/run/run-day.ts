@@ -15,7 +15,7 @@ import { errorFields, type Logger } from '../log.ts';
 import {
   EMPTY_DATASET,
   buildDayProfile,
-  buildSliceProfiles,
+  buildDayAndSliceProfiles,
   capDayProfile,
   hasSlices,
   mergeBaseline,
@@ -175,16 +175,21 @@ async function readProfile(
   const t0 = performance.now();
   const cols = await readSource(deps, `reading the snapshot of ${date}`, (client) => readDay(client, plan, date, { maxRows: deps.config.source.maxRowsPerDay, featureCount: deps.config.features.length, maxCategoryLength: deps.config.source.maxCategoryLength }));
   const t1 = performance.now();
-  // Slices first: profiling the whole day consumes the columns.
   // One pool of workers for the slices and the day: starting a worker costs more than a small slice.
   const pool = profilerPool();
   let slices: SliceProfile[] | null = null;
   let profile: DayProfile;
   let t2: number;
   try {
-    if (hasSlices(deps.config)) slices = await buildSliceProfiles(cols, deps.config, planSlicesOfColumns(deps.config, cols), (name) => sliceSpecs.get(name)?.bins ?? null, pool.profiler(SLICE_PARALLEL_MIN_ROWS));
-    t2 = performance.now();
-    profile = await buildDayProfile(cols, deps.config, bins, pool.profiler());
+    if (hasSlices(deps.config)) {
+      const both = await buildDayAndSliceProfiles(cols, deps.config, bins, planSlicesOfColumns(deps.config, cols), (name) => sliceSpecs.get(name)?.bins ?? null, pool.profiler(SLICE_PARALLEL_MIN_ROWS), pool.profiler());
+      profile = both.profile;
+      slices = both.slices;
+      t2 = t1 + both.sliceMilliseconds;
+    } else {
+      t2 = performance.now();
+      profile = await buildDayProfile(cols, deps.config, bins, pool.profiler());
+    }
   } finally {
     await pool.close();
   }

@@ -5,7 +5,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { parseConfig, type Config } from '../../../src/config/index.ts';
-import { buildDayProfile, buildSliceProfiles, planSlices, planSlicesOfColumns, segmentLabel, sliceRows, subsetColumns, tallySegment, type SliceDef } from '../../../src/profile/index.ts';
+import { buildDayAndSliceProfiles, buildDayProfile, buildSliceProfiles, planSlices, planSlicesOfColumns, segmentLabel, sliceRows, subsetColumns, tallySegment, type SliceDef } from '../../../src/profile/index.ts';
 import { NULL_POSITION, type DayColumns } from '../../../src/source/index.ts';
 import { MISSING_NULL } from '../../../src/stats/index.ts';
 
@@ -156,5 +156,80 @@ describe('slice profiles', () => {
   it('scales a slice of a sampled day like the day', () => {
     const sub = subsetColumns({ ...day(), sampled: true, totalRows: 24 }, Int32Array.of(0, 1, 2));
     expect(sub).toMatchObject({ rows: 3, totalRows: 6, sampled: true, lists: 2 });
+  });
+});
+
+/** A day of `lists` lists of 1-12 rows with a market per list (or, when `mixed`, one list split between two). */
+function randomDay(lists: number, mixed: boolean): DayColumns {
+  let seed = 12345;
+  const rand = (): number => ((seed = (Math.imul(seed, 1103515245) + 12345) >>> 0) / 2 ** 32);
+  const listOf: number[] = [];
+  const position: number[] = [];
+  const market: number[] = [];
+  for (let l = 0; l < lists; l++) {
+    const n = 1 + Math.floor(rand() * 12);
+    const m = rand() < 0.1 ? -1 : Math.floor(rand() * 3);
+    for (let p = 1; p <= n; p++) {
+      listOf.push(l);
+      position.push(rand() < 0.03 ? NULL_POSITION : p);
+      market.push(mixed && l === 7 && p > 1 ? (m + 1) % 3 : m);
+    }
+  }
+  const rows = listOf.length;
+  const column = (f: (i: number) => number): Float64Array => {
+    const v = new Float64Array(new SharedArrayBuffer(rows * 8));
+    for (let i = 0; i < rows; i++) v[i] = f(i);
+    return v;
+  };
+  // Relevance falls with position (with ties and missing values); the score follows it; price is noise.
+  const relevance = column((i) => (rand() < 0.05 ? Number.NaN : Math.round((20 - position[i]! + 4 * rand()) * 2) / 2));
+  const score = column((i) => (rand() < 0.02 ? Number.NaN : relevance[i]! + rand()));
+  const price = column(() => Math.round(rand() * 50));
+  return {
+    date: '2031-05-11',
+    rows,
+    totalRows: rows,
+    sampled: false,
+    listOf: Int32Array.from(listOf),
+    lists,
+    itemHash: Float64Array.from(listOf.map((l, i) => l * 1000 + i)),
+    position: Int32Array.from(position),
+    label: null,
+    numeric: [relevance, score, price],
+    missing: [null, null, null],
+    categorical: [null, null, null],
+    segments: [{ codes: Int32Array.from(market), dictionary: ['north', 'south', 'east'] }],
+  };
+}
+
+describe('buildDayAndSliceProfiles', () => {
+  const c = parseConfig(
+    {
+      source: { table: 'impressions', columns: { score: 'model_score' } },
+      features: [{ name: 'relevance', withinList: { rule: 'minmax' } }, { name: 'model_score' }, { name: 'price' }],
+      slices: { topK: [3], segments: [{ column: 'market', maxValues: 2, minRows: 10 }] },
+    },
+    'test',
+  );
+
+  it.each([
+    ['segments of whole lists (within-list checks taken from the day)', false],
+    ['a list split between two segments (those slices profiled in full)', true],
+  ])('gives the same day and slices as profiling each slice in full: %s', async (_, mixed) => {
+    const defs = planSlicesOfColumns(c, randomDay(400, mixed));
+    expect(defs.map((d) => d.kind)).toEqual(['top', 'segment', 'segment', 'segment']);
+    const both = await buildDayAndSliceProfiles(randomDay(400, mixed), c, null, defs, () => null);
+    const slices = await buildSliceProfiles(randomDay(400, mixed), c, defs, () => null);
+    expect(both.slices).toEqual(slices);
+    expect(both.profile).toEqual(await buildDayProfile(randomDay(400, mixed), c, null));
+    // The per-list records served the slices and are gone from the day's profile.
+    expect(Object.values(both.profile.features).some((f) => 'perList' in f)).toBe(false);
+    // The comparison has something to compare: association with position and score, and rules.
+    const east = slices[1]!.profile.features['relevance'];
+    expect(east).toMatchObject({ withinList: { listsJudged: expect.any(Number) }, association: { position: { count: expect.any(Number) }, score: { count: expect.any(Number) } } });
+    if (east?.kind === 'categorical' || east?.association === undefined || east.association === null) throw new Error('no association');
+    expect(east.association.position.count).toBeGreaterThan(50);
+    expect(east.association.position.sum).toBeLessThan(0);
+    expect(east.withinList!.listsJudged).toBeGreaterThan(50);
   });
 });

@@ -297,6 +297,22 @@ describe('ks2 properties (fast-check)', () => {
     );
   });
 
+  it('D is the ECDF definition when one sample is at most a quarter of the other (the binary-search walk)', () => {
+    const small = fc.array(fc.integer({ min: -8, max: 8 }), { minLength: 1, maxLength: 20 });
+    const big = fc.array(fc.oneof(fc.integer({ min: -10, max: 10 }), fc.double({ min: -10, max: 10, noNaN: true })), { minLength: 80, maxLength: 400 });
+    fc.assert(
+      fc.property(small, big, (xs, ys) => {
+        const a = Float64Array.from(xs).sort();
+        const b = Float64Array.from(ys).sort();
+        const d = bruteForceD(xs, ys);
+        expect(Math.abs(ks2Sorted(a, b).d - d)).toBeLessThanOrEqual(1e-15);
+        expect(Math.abs(ks2Sorted(b, a).d - d)).toBeLessThanOrEqual(1e-15);
+        expect(ks2Sorted(b, a)).toMatchObject({ n: ys.length, m: xs.length });
+      }),
+      { numRuns: 300, seed: 20261202 },
+    );
+  });
+
   it('exact p-value equals enumeration of all orderings (n, m <= 6)', () => {
     for (let n = 1; n <= 6; n++) {
       for (let m = 1; m <= 6; m++) {
