@@ -10,7 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { NumericProfile } from './types.ts';
 import { profileOnThisThread, releaseColumn, type NumericProfiler } from './day.ts';
-import type { ProfileRequest } from './worker.ts';
+import { profileClaimed, type ProfileJob, type ProfileRequest } from './claim.ts';
 
 /** Rows below which a day is profiled on one thread. */
 export const PARALLEL_MIN_ROWS = 200_000;
@@ -57,8 +57,8 @@ export interface ProfilerPool {
 /**
  * A pool of up to `threads` threads (default: the machine's cores), this one included. Starting
  * a worker costs more than profiling a small row set, so a run that profiles several (a day and
- * its slices, src/profile/slices.ts) starts its workers once. Features are dealt round-robin,
- * the first share on this thread. Each request settles exactly once: with the worker's answer,
+ * its slices, src/profile/slices.ts) starts its workers once. Threads take features one at a
+ * time from a shared counter (this thread too). Each request settles exactly once: with the worker's answer,
  * or with an error when the worker reports one, throws, or exits without answering (killed,
  * out of memory), so a dead worker fails the run instead of leaving it waiting; a worker that
  * failed or exited is dropped and the next request starts another.
@@ -66,13 +66,13 @@ export interface ProfilerPool {
 export function profilerPool(threads: number = availableParallelism(), workerUrl: URL = WORKER_URL): ProfilerPool {
   const workers: (Worker | undefined)[] = [];
 
-  function request(i: number, req: ProfileRequest): { done: Promise<NumericProfile[]>; stop(): void } {
+  function request(i: number, req: ProfileRequest): { done: Promise<[number, NumericProfile][]>; stop(): void } {
     const worker = (workers[i] ??= startWorker(workerUrl));
     const drop = (): void => {
       if (workers[i] === worker) workers[i] = undefined;
       void worker.terminate();
     };
-    const done = new Promise<NumericProfile[]>((resolve, reject) => {
+    const done = new Promise<[number, NumericProfile][]>((resolve, reject) => {
       let settled = false;
       const settle = (ok: boolean, fn: () => void): void => {
         if (settled) return;
@@ -81,7 +81,7 @@ export function profilerPool(threads: number = availableParallelism(), workerUrl
         if (!ok) drop();
         fn();
       };
-      const onMessage = (msg: { ok: true; profiles: NumericProfile[] } | { ok: false; error: string }): void =>
+      const onMessage = (msg: { ok: true; profiles: [number, NumericProfile][] } | { ok: false; error: string }): void =>
         settle(msg.ok, () => (msg.ok ? resolve(msg.profiles) : reject(new Error(`profile worker failed: ${msg.error}`))));
       const onMessageError = (err: Error): void => settle(false, () => reject(new Error(`profile worker sent an unreadable answer: ${err.message}`, { cause: err })));
       const onError = (err: Error): void => settle(false, () => reject(new Error(`profile worker failed: ${err.message}`, { cause: err })));
@@ -96,38 +96,34 @@ export function profilerPool(threads: number = availableParallelism(), workerUrl
     profiler(minRows: number = PARALLEL_MIN_ROWS): NumericProfiler {
       return async (cols, g, indexes, config, bins) => {
         if (threads <= 1 || cols.rows < minRows || indexes.length < 2) return profileOnThisThread(cols, g, indexes, config, bins);
-        const shares: number[][] = Array.from({ length: Math.min(threads, indexes.length) }, () => []);
-        indexes.forEach((fi, i) => shares[i % shares.length]!.push(fi));
-        const remote = shares.slice(1).map((share, s) =>
-          request(s, {
-            lists: cols.lists,
-            grouping: g,
-            parentRows: cols.parentRows ?? null,
-            jobs: share.map((fi) => {
-              const feature = config.features[fi]!;
-              const job = { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
-              // The worker holds the shared column now; this thread lets go of it.
-              releaseColumn(cols, fi);
-              return job;
-            }),
-          }),
-        );
-        // Observed at once: a worker that fails while this thread profiles its own share must
-        // not become an unhandled rejection (which would end the process instead of the run).
+        // Every thread takes the next feature from one shared counter until none is left, so
+        // a thread that drew quick features (or this one, busy between features with the
+        // day's other work) never leaves the rest waiting on a fixed share.
+        const next = new Int32Array(new SharedArrayBuffer(4));
+        const jobs: ProfileJob[] = indexes.map((fi) => {
+          const feature = config.features[fi]!;
+          return { values: cols.numeric[fi]!, missing: cols.missing[fi] ?? null, feature, bins: bins?.[feature.name] };
+        });
+        // The jobs hold the (shared) columns now: the day's columns let go of them.
+        indexes.forEach((fi) => releaseColumn(cols, fi));
+        const req: ProfileRequest = { lists: cols.lists, grouping: g, parentRows: cols.parentRows ?? null, jobs, next };
+        const remote = Array.from({ length: Math.min(threads, indexes.length) - 1 }, (_, s) => request(s, req));
+        // Observed at once: a worker that fails while this thread profiles must not become an
+        // unhandled rejection (which would end the process instead of the run).
         const all = Promise.all(remote.map((r) => r.done));
         all.catch(() => remote.forEach((r) => r.stop()));
-        let local: NumericProfile[];
+        const results: (NumericProfile | undefined)[] = new Array(jobs.length);
         try {
-          local = await profileOnThisThread(cols, g, shares[0]!, config, bins);
+          for (const [k, profile] of profileClaimed(req)) results[k] = profile;
         } catch (err) {
           remote.forEach((r) => r.stop());
           throw err;
         }
-        const done = await all;
-        const results = new Map<number, NumericProfile>();
-        shares[0]!.forEach((fi, i) => results.set(fi, local[i]!));
-        shares.slice(1).forEach((share, s) => share.forEach((fi, i) => results.set(fi, done[s]![i]!)));
-        return indexes.map((fi) => results.get(fi)!);
+        for (const answer of await all) for (const [k, profile] of answer) results[k] = profile;
+        return results.map((p, k) => {
+          if (p === undefined) throw new Error(`profile of feature ${config.features[indexes[k]!]!.name} is missing: no thread took it`);
+          return p;
+        });
       };
     },
     async close(): Promise<void> {
