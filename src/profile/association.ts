@@ -18,26 +18,31 @@ export interface ServedOrder {
   start: Int32Array;
   /** Row index per entry. */
   rows: Int32Array;
-  /** Position per entry (ascending within a list). */
-  position: Float64Array;
+  /** Position per entry (ascending within a list; positions are int32 in the source). */
+  position: Int32Array;
   /** Average rank of the position among the list's entries (ties share the mean rank). */
-  positionRank: Float64Array;
-  /** Served rank per entry, 1 + the entries of the list with a smaller position (rank() in SQL). */
-  servedRank: Int32Array;
+  positionRank: RankArray;
   /** Model score per entry (NaN when missing), or null without a score column. */
   score: Float64Array | null;
   /** Average rank of the score among the list's entries, valid when the whole list has a finite score. */
-  scoreRank: Float64Array | null;
+  scoreRank: RankArray | null;
   /** 1 when every entry of the list has a finite score. */
   scoreComplete: Uint8Array | null;
 }
 
-function shared<T extends Float64Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {
+/**
+ * Average ranks inside a list are half-integers: exact in float32 below 2^23, so a day whose
+ * lists are all shorter (any day under 2^23 rows) keeps them in half the memory.
+ */
+type RankArray = Float32Array | Float64Array;
+const FLOAT32_EXACT_RANKS = 8388608;
+
+function shared<T extends Float64Array | Float32Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {
   return new ctor(new SharedArrayBuffer(Math.max(1, n) * ctor.BYTES_PER_ELEMENT));
 }
 
 /** Average ranks of values already sorted ascending (a linear walk over the tie groups). */
-function ranksOfSortedInto(sorted: ArrayLike<number>, from: number, n: number, out: Float64Array, outFrom: number): void {
+function ranksOfSortedInto(sorted: ArrayLike<number>, from: number, n: number, out: RankArray, outFrom: number): void {
   let i = 0;
   while (i < n) {
     let j = i + 1;
@@ -65,11 +70,11 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
   }
   start[lists] = total;
   const rows = shared(Int32Array, total);
-  const pos = shared(Float64Array, total);
-  const positionRank = shared(Float64Array, total);
-  const servedRank = shared(Int32Array, total);
+  const pos = shared(Int32Array, total);
+  const ranks = (): RankArray => (total < FLOAT32_EXACT_RANKS ? shared(Float32Array, total) : shared(Float64Array, total));
+  const positionRank = ranks();
   const sc = score === null ? null : shared(Float64Array, total);
-  const scoreRank = score === null ? null : shared(Float64Array, total);
+  const scoreRank = score === null ? null : ranks();
   const scoreComplete = score === null ? null : shared(Uint8Array, lists);
   let keys = new Float64Array(64);
   const scratch = new RankScratch();
@@ -105,11 +110,6 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       pos[e0 + t] = position[r]!;
     }
     ranksOfSortedInto(pos, e0, n, positionRank, e0);
-    let rank = 1;
-    for (let t = 0; t < n; t++) {
-      if (t > 0 && pos[e0 + t] !== pos[e0 + t - 1]) rank = t + 1;
-      servedRank[e0 + t] = rank;
-    }
     if (score !== null) {
       let complete = 1;
       for (let t = 0; t < n; t++) {
@@ -125,7 +125,7 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       }
     }
   }
-  return { start, rows, position: pos, positionRank, servedRank, score: sc, scoreRank, scoreComplete };
+  return { start, rows, position: pos, positionRank, score: sc, scoreRank, scoreComplete };
 }
 
 export function emptyCorrelationSums(): RankCorrelationSums {
@@ -261,6 +261,7 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
   };
   let ys = new Float64Array(64);
   let scratch = new Float64Array(64);
+  let servedRank = new Int32Array(64);
   const lists = served.start.length - 1;
   for (let l = 0; l < lists; l++) {
     const e0 = served.start[l]!;
@@ -269,19 +270,24 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
     if (ys.length < n) {
       ys = new Float64Array(n * 2);
       scratch = new Float64Array(n * 2);
+      servedRank = new Int32Array(n * 2);
     }
     let positives = 0;
+    let rank = 1;
     for (let t = 0; t < n; t++) {
+      // Served rank: 1 + the entries of the list with a smaller position (rank() in SQL).
+      if (t > 0 && served.position[e0 + t] !== served.position[e0 + t - 1]) rank = t + 1;
+      servedRank[t] = rank;
       const y = label[served.rows[e0 + t]!]!;
       ys[t] = y;
       if (y > 0) {
         positives++;
-        out.positivesByBucket[positionBucket(served.servedRank[e0 + t]!)]!++;
+        out.positivesByBucket[positionBucket(rank)]!++;
       }
     }
     if (positives === 0) continue;
     const labels = ys.subarray(0, n);
-    const rr = reciprocalRank(labels, served.servedRank.subarray(e0, e0 + n))!;
+    const rr = reciprocalRank(labels, servedRank.subarray(0, n))!;
     // Rows tied on position take their average rank (NDCG then stays <= 1).
     const nd = ndcgAtK(labels, k, served.positionRank.subarray(e0, e0 + n), scratch)!;
     out.lists++;
