@@ -18,9 +18,11 @@ export interface ServedOrder {
   start: Int32Array;
   /** Row index per entry. */
   rows: Int32Array;
-  /** Position per entry (ascending within a list; positions are int32 in the source). */
-  position: Int32Array;
-  /** Average rank of the position among the list's entries (ties share the mean rank). */
+  /**
+   * Average rank of the position among the list's entries (ties share the mean rank). It
+   * rises with the position inside a list and is equal exactly where positions tie, so it
+   * stands in for the position wherever only order and ties count (no position is kept).
+   */
   positionRank: RankArray;
   /** Model score per entry (NaN when missing), or null without a score column. */
   score: Float64Array | null;
@@ -70,13 +72,13 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
   }
   start[lists] = total;
   const rows = shared(Int32Array, total);
-  const pos = shared(Int32Array, total);
   const ranks = (): RankArray => (total < FLOAT32_EXACT_RANKS ? shared(Float32Array, total) : shared(Float64Array, total));
   const positionRank = ranks();
   const sc = score === null ? null : shared(Float64Array, total);
   const scoreRank = score === null ? null : ranks();
   const scoreComplete = score === null ? null : shared(Uint8Array, lists);
   let keys = new Float64Array(64);
+  let pos = new Int32Array(64);
   const scratch = new RankScratch();
   for (let l = 0; l < lists; l++) {
     const a = g.start[l]!;
@@ -84,7 +86,10 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
     const e0 = start[l]!;
     const n = start[l + 1]! - e0;
     if (n === 0) continue;
-    if (keys.length < n) keys = new Float64Array(n * 2);
+    if (keys.length < n) {
+      keys = new Float64Array(n * 2);
+      pos = new Int32Array(n * 2);
+    }
     let min = Infinity;
     for (let k = a; k < b; k++) {
       const p = position[g.order[k]!]!;
@@ -107,9 +112,9 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       const k = a + (b - a >= PACK ? keys[t]! : keys[t]! % PACK);
       const r = g.order[k]!;
       rows[e0 + t] = r;
-      pos[e0 + t] = position[r]!;
+      pos[t] = position[r]!;
     }
-    ranksOfSortedInto(pos, e0, n, positionRank, e0);
+    ranksOfSortedInto(pos, 0, n, positionRank, e0);
     if (score !== null) {
       let complete = 1;
       for (let t = 0; t < n; t++) {
@@ -125,7 +130,7 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       }
     }
   }
-  return { start, rows, position: pos, positionRank, score: sc, scoreRank, scoreComplete };
+  return { start, rows, positionRank, score: sc, scoreRank, scoreComplete };
 }
 
 export function emptyCorrelationSums(): RankCorrelationSums {
@@ -188,7 +193,8 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       const x = values[served.rows[e0 + t]!]!;
       if (Number.isFinite(x)) {
         sp.x[m] = x;
-        sp.y[m] = served.position[e0 + t]!;
+        // The position's rank in the list orders and ties the pairs as the position does.
+        sp.y[m] = served.positionRank[e0 + t]!;
         m++;
       }
     }
@@ -276,7 +282,7 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
     let rank = 1;
     for (let t = 0; t < n; t++) {
       // Served rank: 1 + the entries of the list with a smaller position (rank() in SQL).
-      if (t > 0 && served.position[e0 + t] !== served.position[e0 + t - 1]) rank = t + 1;
+      if (t > 0 && served.positionRank[e0 + t] !== served.positionRank[e0 + t - 1]) rank = t + 1;
       servedRank[t] = rank;
       const y = label[served.rows[e0 + t]!]!;
       ys[t] = y;
