@@ -228,12 +228,16 @@ export async function main(argv: string[]): Promise<number> {
  */
 function installRejectionPolicy(log: Logger): () => number {
   let count = 0;
-  process.on('unhandledRejection', (reason: unknown) => {
+  // Replaces the process-wide default (end the process), which would otherwise run as well.
+  servicePolicy.onRejection = (reason: unknown) => {
     count++;
     log.error('unhandled promise rejection', errorFields(reason));
-  });
+  };
   return () => count;
 }
+
+/** What the process does with a promise rejection nothing handled: set by `serve`, else the default (end the process). */
+const servicePolicy: { onRejection: ((reason: unknown) => void) | null } = { onRejection: null };
 
 /** What the CLI needs of src/demo (see the 'demo' command). */
 interface DemoModule {
@@ -280,7 +284,7 @@ if (isMainModule()) {
     process.exit(EXIT.bug);
   };
   process.on('uncaughtException', fatal);
-  process.on('unhandledRejection', fatal);
+  process.on('unhandledRejection', (reason: unknown) => (servicePolicy.onRejection ?? fatal)(reason));
   main(process.argv.slice(2)).then(
     (code) => {
       process.exitCode = code;

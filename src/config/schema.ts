@@ -333,6 +333,12 @@ const SlicesSchema = z
       .default([]),
     /** Values kept per feature and slice in a slice's baseline (KS and bin edges). */
     sampleSize: positiveInt.min(1000).max(1_000_000).default(10_000),
+    /**
+     * About this many of a slice's finite values a day per feature are sorted for its KS and
+     * distinct-value checks (a sample by row, always with the smallest and largest value);
+     * counts, PSI bins, means and within-list checks use every row.
+     */
+    valuesPerDay: positiveInt.min(1000).max(5_000_000).default(50_000),
   })
   .prefault({});
 

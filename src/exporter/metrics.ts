@@ -114,6 +114,7 @@ export class PlumblineMetrics {
   readonly #interruptions: Counter;
   readonly #unhandled: Counter;
   #unhandledCount = 0;
+  #unhandledSource: (() => number) | undefined;
   #interruptionsCount = 0;
   /** What the two counters hold (prom-client reads them back only asynchronously). */
   #runsCount = 0;
@@ -179,7 +180,17 @@ export class PlumblineMetrics {
     this.#runs = new Counter({ name: 'plumbline_runs_total', help: 'Runs completed, success or failure, over the store\'s history.', registers });
     this.#failures = new Counter({ name: 'plumbline_run_failures_total', help: 'Runs that failed, over the store\'s history.', registers });
     this.#interruptions = new Counter({ name: 'plumbline_run_interruptions_total', help: 'Runs stopped by a shutdown before they finished (not failures), over the store\'s history.', registers });
-    this.#unhandled = new Counter({ name: 'plumbline_unhandled_rejections_total', help: 'Promise rejections nothing handled in this process (a bug; each is logged).', registers });
+    const unhandled = (): number | undefined => this.#unhandledSource?.();
+    this.#unhandled = new Counter({
+      name: 'plumbline_unhandled_rejections_total',
+      help: 'Promise rejections nothing handled in this process (a bug; each is logged).',
+      registers,
+      // Read at each scrape, so the count is current (reading a number cannot fail a scrape).
+      collect: () => {
+        const n = unhandled();
+        if (n !== undefined) this.setUnhandledRejections(n);
+      },
+    });
     this.#sourceUp = gauge('plumbline_source_up', 'Whether the source database answered the latest probe (1) or not (0).');
     this.#storeUp = gauge('plumbline_store_up', 'Whether Plumbline\'s store answered the latest probe (1) or not (0).');
     this.#leader = gauge('plumbline_leader', 'Whether this replica holds the leader lock and runs the schedule (1) or only serves results (0).');
@@ -368,6 +379,11 @@ export class PlumblineMetrics {
     this.setSourceUp(h.sourceUp);
     this.setStoreUp(h.storeUp);
     this.setLeader(h.leader);
+  }
+
+  /** Where plumbline_unhandled_rejections_total reads the process's count at each scrape (cli.ts's policy). */
+  countUnhandledRejectionsFrom(count: () => number): void {
+    this.#unhandledSource = count;
   }
 
   /** Raises the unhandled-rejection counter to the process's count. */

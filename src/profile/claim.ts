@@ -19,6 +19,8 @@ export interface ProfileRequest {
   grouping: ListGrouping;
   /** A slice's rows in the day's columns (DayColumns.parentRows), or null. */
   parentRows: Int32Array | null;
+  /** A slice's value cap (DayColumns.valueCap), or undefined. */
+  valueCap: number | undefined;
   jobs: ProfileJob[];
   /** next[0]: the index of the next job nobody has taken. */
   next: Int32Array;
@@ -32,6 +34,6 @@ export function profileClaimed(req: ProfileRequest): [number, NumericProfile][] 
     const k = Atomics.add(req.next, 0, 1);
     if (k >= req.jobs.length) return out;
     const j = req.jobs[k]!;
-    out.push([k, numericProfile(j.values, j.missing, req.lists, req.grouping, j.feature, j.bins, scratch, req.parentRows)]);
+    out.push([k, numericProfile(j.values, j.missing, req.lists, req.grouping, j.feature, j.bins, scratch, req.parentRows, req.valueCap)]);
   }
 }

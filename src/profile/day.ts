@@ -5,6 +5,7 @@
 import type { Config } from '../config/index.ts';
 import {
   addToSplitSum,
+  binCounts,
   binCountsSorted,
   boundCategories,
   meanOfSplitSum,
@@ -174,7 +175,12 @@ export class SortScratch {
  * values are moved to its front and sorted there, and that prefix is the profile's sorted
  * sample. A day so costs one copy of its columns in memory, not a column and its sorted copy.
  * With `parentRows` (a slice, DayColumns.parentRows) the values at those rows are gathered
- * first and the copy is consumed instead; the column is left as it was.
+ * first and the copy is consumed instead; the column is left as it was. With more finite
+ * values than `valueCap` (a slice, DayColumns.valueCap), the sorted sample is a sample by row
+ * of about that size plus the smallest and largest value: sorting is most of a profile's
+ * cost, and a slice's KS counts lists, not rows (checks/slices.ts), so a sample of tens of
+ * thousands of values loses nothing it could show. Quality counts, bin counts, the mean and
+ * the within-list checks still count every row.
  */
 export function numericProfile(
   column: Float64Array,
@@ -185,6 +191,7 @@ export function numericProfile(
   bins: BinSpec | undefined,
   scratch: SortScratch = new SortScratch(),
   parentRows: Int32Array | null = null,
+  valueCap = Infinity,
 ): NumericProfile {
   const values = parentRows === null ? column : gatherValues(column, parentRows);
   const missing = parentRows === null || columnMissing === null ? columnMissing : gatherMissing(columnMissing, parentRows);
@@ -234,27 +241,57 @@ export function numericProfile(
   let k = 0;
   // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
   const sum: SplitSum = { small: 0, largeScaled: 0 };
-  for (let i = 0; i < values.length; i++) {
-    const v = values[i]!;
-    if (Number.isFinite(v)) {
-      values[k++] = v;
-      addToSplitSum(sum, v);
+  const sampled = quality.finite > valueCap;
+  // Counted over every row, before a sample replaces the values (same counts as countsOverBins unsampled).
+  const binCounts = bins === undefined ? [] : sampled ? countsOverAllValues(bins, values, quality) : null;
+  if (!sampled) {
+    for (let i = 0; i < values.length; i++) {
+      const v = values[i]!;
+      if (Number.isFinite(v)) {
+        values[k++] = v;
+        addToSplitSum(sum, v);
+      }
     }
+  } else {
+    // A sample by row (a hash of the day's row index, so the same rows for every feature),
+    // plus the smallest and largest value, so that the range and a constant feature stay exact.
+    const threshold = Math.floor((valueCap / quality.finite) * 4294967296);
+    let min = Infinity;
+    let max = -Infinity;
+    for (let i = 0; i < values.length; i++) {
+      const v = values[i]!;
+      if (!Number.isFinite(v)) continue;
+      addToSplitSum(sum, v);
+      if (v < min) min = v;
+      if (v > max) max = v;
+      const row = parentRows === null ? i : parentRows[i]!;
+      if (Math.imul(row + 1, 0x9e3779b1) >>> 0 < threshold) values[k++] = v;
+    }
+    values[k++] = min;
+    values[k++] = max;
   }
-  const sorted = radixSortInPlace(values.subarray(0, k), scratch.of(k));
+  // A sample is copied out, so that the column it was taken from can go.
+  const sorted = sampled ? radixSortInPlace(values.slice(0, k), scratch.of(k)) : radixSortInPlace(values.subarray(0, k), scratch.of(k));
 
   const profile: NumericProfile = {
     kind: feature.kind === 'binary' ? 'binary' : 'numeric',
     quality,
-    binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
+    binCounts: binCounts ?? countsOverBins(bins!, sorted, quality),
     sortedSample: sorted,
     distinct: distinctCountSorted(sorted),
-    mean: k > 0 ? meanOfSplitSum(sum, k) : null,
+    mean: quality.finite > 0 ? meanOfSplitSum(sum, quality.finite) : null,
     withinList,
   };
   if (association !== undefined) profile.association = association;
   if (perList !== undefined) profile.perList = perList;
   return profile;
+}
+
+/** Counts over the baseline's bins of every value of a column (NaN skipped), plus the missing bin. */
+function countsOverAllValues(bins: BinSpec, values: Float64Array, q: QualityCounts): number[] {
+  const counts = Array.from(binCounts(bins, values));
+  counts.push(q.nulls + q.nan + q.typeErrors);
+  return counts;
 }
 
 /**
@@ -326,7 +363,7 @@ export const profileOnThisThread: NumericProfiler = async (cols, g, indexes, con
   const scratch = new SortScratch();
   return indexes.map((fi) => {
     const f = config.features[fi]!;
-    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name], scratch, cols.parentRows ?? null);
+    const profile = numericProfile(cols.numeric[fi]!, cols.missing[fi] ?? null, cols.lists, g, f, bins?.[f.name], scratch, cols.parentRows ?? null, cols.valueCap);
     releaseColumn(cols, fi);
     return profile;
   });

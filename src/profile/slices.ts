@@ -200,6 +200,11 @@ export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
   };
 }
 
+/** A slice's columns as its profile wants them: its rows, and its cap on sorted values. */
+function sliceColumns(cols: DayColumns, rows: Int32Array, config: Config): DayColumns {
+  return { ...subsetColumns(cols, rows), valueCap: config.slices.valuesPerDay };
+}
+
 /** The slices of a day read into columns (stream engine, and the pushdown engine's sample). */
 export function planSlicesOfColumns(config: Config, cols: DayColumns): SliceDef[] {
   return planSlices(config, (cols.segments ?? []).map(tallySegment));
@@ -220,7 +225,7 @@ export async function buildSliceProfiles(
   const out: SliceProfile[] = [];
   // One slice at a time: its copy of the columns is released (profiled) before the next is made.
   for (const def of defs) {
-    const sub = subsetColumns(cols, sliceRows(cols, def));
+    const sub = sliceColumns(cols, sliceRows(cols, def), config);
     out.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sub, config, binsOf(def.name), profiler) });
   }
   return out;
@@ -296,7 +301,7 @@ export async function buildDayAndSliceProfiles(
     const rows = sliceRows(cols, def);
     const member = def.kind === 'segment' ? wholeListsOf(cols, rows, listSizes) : null;
     members.push(member);
-    slices.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(subsetColumns(cols, rows), config, binsOf(def.name), sliceProfiler, member === null ? undefined : 'skip') });
+    slices.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sliceColumns(cols, rows, config), config, binsOf(def.name), sliceProfiler, member === null ? undefined : 'skip') });
   }
   const sliceMilliseconds = performance.now() - t0;
   const fromDay = members.some((m) => m !== null);

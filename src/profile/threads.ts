@@ -106,7 +106,7 @@ export function profilerPool(threads: number = availableParallelism(), workerUrl
         });
         // The jobs hold the (shared) columns now: the day's columns let go of them.
         indexes.forEach((fi) => releaseColumn(cols, fi));
-        const req: ProfileRequest = { lists: cols.lists, grouping: g, parentRows: cols.parentRows ?? null, jobs, next };
+        const req: ProfileRequest = { lists: cols.lists, grouping: g, parentRows: cols.parentRows ?? null, valueCap: cols.valueCap, jobs, next };
         const remote = Array.from({ length: Math.min(threads, indexes.length) - 1 }, (_, s) => request(s, req));
         // Observed at once: a worker that fails while this thread profiles must not become an
         // unhandled rejection (which would end the process instead of the run).

@@ -253,6 +253,11 @@ export interface DayColumns {
    * at once. Every other column is the slice's own.
    */
   parentRows?: Int32Array;
+  /**
+   * Set on a slice's columns: at most about this many finite values per feature are sorted
+   * into the profile's sortedSample (config slices.valuesPerDay); see numericProfile.
+   */
+  valueCap?: number;
 }
 
 /** The position of a row whose position is null. */

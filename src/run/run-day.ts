@@ -41,7 +41,6 @@ import {
   planSource,
   readDay,
   readDayAggregates,
-  foreignPartitionsOf,
   readRankingAggregates,
   sliceFilter,
   tallySegmentsSql,
@@ -222,7 +221,7 @@ async function readPushdownProfile(deps: RunDeps, plan: SourcePlan, date: string
       for (const def of defs) sliceAggs.push(await readDayAggregates(client, config, plan, date, specsOf(def.name), sliceFilter(config, def)));
     }
     const ts = performance.now();
-    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength, totalRows: agg.dataset.rows, shippableHash: (await foreignPartitionsOf(client, plan.relation)) !== null });
+    const cols = await readDay(client, plan, date, { maxRows: daySampleCap(config), featureCount: config.features.length, maxCategoryLength: config.source.maxCategoryLength, totalRows: agg.dataset.rows });
     timings.rankingSeconds = (tsl - tr) / 1000;
     timings.slicesSeconds = (ts - tsl) / 1000;
     timings.sampleSeconds = (performance.now() - ts) / 1000;

@@ -21,8 +21,6 @@ export interface ScheduleLoopDeps {
   leader: LeaderLock;
   coordinator: RunCoordinator;
   probeIntervalMs: number;
-  /** Called after each probe (e.g. to publish process-level counters). */
-  onProbe?: () => void;
 }
 
 async function answers(pool: Pool): Promise<boolean> {
@@ -67,7 +65,6 @@ export class ScheduleLoop {
     this.sourceUp = s;
     metrics.setSourceUp(s);
     metrics.setStoreUp(st);
-    this.deps.onProbe?.();
     if (coordinator.ready && !coordinator.busy && !this.#stopped) {
       const wasLeader = leader.isLeader;
       const role = await leader.acquire();

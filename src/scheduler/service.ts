@@ -96,8 +96,8 @@ export async function serve(options: ServeOptions): Promise<number> {
     leader,
     coordinator,
     probeIntervalMs: options.probeIntervalMs ?? 15_000,
-    ...(options.unhandledRejections !== undefined ? { onProbe: () => metrics.setUnhandledRejections(options.unhandledRejections!()) } : {}),
   });
+  if (options.unhandledRejections !== undefined) metrics.countUnhandledRejectionsFrom(options.unhandledRejections);
   sourceUp = () => schedule.sourceUp;
 
   const page =

@@ -1,6 +1,6 @@
 export { planSource, checkJsonbKeys, sourceProblems, type SourcePlan, type FeaturePlan } from './plan.ts';
 export { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
-export { readDay, countDays, firstSnapshotDate, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
+export { readDay, countDays, firstSnapshotDate, listSampleCondition, NULL_POSITION, type DayColumns, type CategoricalColumn, type ReadDayOptions } from './read-day.ts';
 export {
   assemblePushdownProfile,
   buildPushdownQueries,

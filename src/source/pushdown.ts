@@ -224,6 +224,26 @@ interface FeatureSql {
   typeError: string | null;
 }
 
+/**
+ * A jsonb number as float8, as JavaScript's Number() reads its text: a magnitude that rounds
+ * beyond the largest double is +-Infinity and one that rounds to zero is 0, where a plain
+ * ::float8 cast raises SQLSTATE 22003 and fails the day. The bounds are exact halfway points
+ * (IEEE 754 round to nearest, ties to even): 2^1024 - 2^970 rounds up to Infinity, 2^-1075 down
+ * to 0. jsonb keeps numbers as numeric, so ::numeric is exact; ordinary values take the first
+ * branch and only rare ones reach the comparisons with the long constants.
+ */
+function jsonNumberAsFloat8(j: string, p: Params): string {
+  const n = `(${j})::numeric`;
+  const overflow = p.add(OVERFLOW_BOUND, 'numeric');
+  const underflow = p.add(UNDERFLOW_BOUND, 'numeric');
+  return `(CASE WHEN abs(${n}) BETWEEN 1e-300 AND 1e300 OR ${n} = 0 THEN (${j})::float8 WHEN abs(${n}) >= ${overflow} THEN sign(${n})::float8 * 'Infinity'::float8 WHEN abs(${n}) <= ${underflow} THEN 0::float8 ELSE (${j})::float8 END)`;
+}
+
+/** 2^1024 - 2^970: the smallest magnitude that rounds to Infinity as a double. */
+const OVERFLOW_BOUND = (2n ** 1024n - 2n ** 970n).toString();
+/** 2^-1075 written out exactly: the largest magnitude that rounds to 0 as a double. */
+const UNDERFLOW_BOUND = `0.${(5n ** 1075n).toString().padStart(1075, '0')}`;
+
 function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: number, p: Params): FeatureSql {
   const where = featureSource(f, config.source.featuresColumn);
   if ('jsonbColumn' in where) {
@@ -231,7 +251,7 @@ function featureSql(config: Config, plan: SourcePlan, f: FeatureConfig, index: n
     if (f.kind === 'categorical') return { feature: f, value: cutCategory(`(${quoteIdent(where.jsonbColumn)} ->> ${key})`, config, p), typeError: null };
     const j = `(${quoteIdent(where.jsonbColumn)} -> ${key})`;
     // As the stream reader parses jsonb text: numbers, true/false as 1/0, null; anything else is a type error.
-    const value = `(CASE jsonb_typeof(${j}) WHEN 'number' THEN (${j})::float8 WHEN 'boolean' THEN (CASE WHEN ${j} = 'true'::jsonb THEN 1 ELSE 0 END)::float8 END)`;
+    const value = `(CASE jsonb_typeof(${j}) WHEN 'number' THEN ${jsonNumberAsFloat8(j, p)} WHEN 'boolean' THEN (CASE WHEN ${j} = 'true'::jsonb THEN 1 ELSE 0 END)::float8 END)`;
     return { feature: f, value, typeError: `(jsonb_typeof(${j}) IN ('string', 'object', 'array'))` };
   }
   const fp = plan.features.find((x) => x.index === index);

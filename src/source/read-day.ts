@@ -218,20 +218,20 @@ export interface ReadDayOptions {
   maxCategoryLength?: number;
   /** The day's row count when the caller counted it in the same snapshot (the pushdown engine): saves a scan. */
   totalRows?: number;
-  /** Sample by the form of the list hash that postgres_fdw ships to the shards (same lists, more CPU). */
-  shippableHash?: boolean;
 }
 
 /**
- * md5-based hash of the list id in [0, 1): stable across PostgreSQL versions and runs. The
- * `shippable` form gives the same value from the same four bytes without a cast through
- * text (postgres_fdw does not ship such a cast to a shard, and would then fetch every row to
- * filter it on the coordinator); it computes md5 four times, so it is used only there.
+ * The whole-list sample's condition: the first 32 bits of the md5 of the list id, read as a
+ * fraction of 2^32, below `fraction`. Stable across PostgreSQL versions and runs. Written as a
+ * comparison of four bytes with a constant (h < ceil(fraction x 2^32) for the integer h is the
+ * same test as h / 2^32 < fraction): one md5 per row, no cast through text or bit strings, so
+ * postgres_fdw ships it to the shards, and the same lists are chosen on one server and on shards.
  */
-function listHashExpression(listId: string, shippable = false): string {
-  if (!shippable) return `(('x' || substr(md5(${listId}::text), 1, 8))::bit(32)::bigint / 4294967296.0)`;
-  const byte = (i: number): string => `get_byte(decode(md5(${listId}::text), 'hex'), ${i})::int8`;
-  return `(((${byte(0)} << 24) | (${byte(1)} << 16) | (${byte(2)} << 8) | ${byte(3)}) / 4294967296.0)`;
+export function listSampleCondition(listId: string, fraction: number): string {
+  const threshold = Math.ceil(fraction * 4294967296);
+  if (threshold >= 4294967296) return 'TRUE';
+  if (threshold <= 0) return 'FALSE';
+  return `decode(substr(md5(${listId}::text), 1, 8), 'hex') < '\\x${threshold.toString(16).padStart(8, '0')}'::bytea`;
 }
 
 /**
@@ -246,8 +246,8 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   let rows = totalRows;
   if (sampled) {
     const res = await client.query<{ n: string }>(
-      `SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where} AND ${listHashExpression(plan.listIdExpression, options.shippableHash)} < $2`,
-      [date, fraction],
+      `SELECT count(*)::text AS n FROM ${plan.relation} WHERE ${where} AND ${listSampleCondition(plan.listIdExpression, fraction)}`,
+      [date],
     );
     rows = Number(res.rows[0]?.n ?? 0);
   }
@@ -275,9 +275,9 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   if (rows === 0) return out;
 
   // COPY takes no bind parameters: the date is validated as YYYY-MM-DD before it gets here
-  // and the sampling fraction is a number we computed.
+  // and the sampling threshold is a number we computed.
   if (!/^\d{4}-\d{2}-\d{2}$/.test(date)) throw new DataError(`not a date: ${JSON.stringify(date)}`);
-  const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listHashExpression(plan.listIdExpression, options.shippableHash)} < ${fraction.toPrecision(17)}` : `${plan.dateColumn} = DATE '${date}'`;
+  const filter = sampled ? `${plan.dateColumn} = DATE '${date}' AND ${listSampleCondition(plan.listIdExpression, fraction)}` : `${plan.dateColumn} = DATE '${date}'`;
   const sql = `COPY (SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${filter}) TO STDOUT (FORMAT binary)`;
   const sink = new DaySink(plan, out, options.maxCategoryLength ?? 200);
   const parser = new CopyBinaryParser(plan.selectList.length, sink);

@@ -58,8 +58,9 @@ export async function prune(pool: Pool, schema: string, policy: RetentionPolicy,
   checkPolicy(policy, today);
   const s = quoteIdent(schema);
   const runs = `${s}.runs`;
-  // The two newest evaluated dates: never pruned (alert state of the next run starts from them).
-  const newest = `SELECT DISTINCT run_date FROM ${runs} WHERE outcome = 'success' ORDER BY run_date DESC LIMIT 2`;
+  // The two newest evaluated dates up to today: never pruned (alert state of the next run starts
+  // from them). A run stored for a date after today (a clock that was wrong) is not one of them.
+  const newest = `SELECT DISTINCT run_date FROM ${runs} WHERE outcome = 'success' AND run_date <= $1::date ORDER BY run_date DESC LIMIT 2`;
   return wrapped(`pruning the store (retention) failed`, () =>
     withTransaction(pool, async (client) => {
       await advisoryXactLock(client, `store-write:${schema}`);
@@ -85,9 +86,9 @@ export async function prune(pool: Pool, schema: string, policy: RetentionPolicy,
           WHERE split_part(fingerprint, '/', 1) NOT IN (
                   SELECT baseline_fingerprint FROM ${runs}
                    WHERE outcome = 'success' AND baseline_fingerprint IS NOT NULL
-                     AND run_date IN (SELECT DISTINCT run_date FROM ${runs} WHERE outcome = 'success' ORDER BY run_date DESC LIMIT $1))
+                     AND run_date IN (SELECT DISTINCT run_date FROM ${runs} WHERE outcome = 'success' AND run_date <= $2::date ORDER BY run_date DESC LIMIT $1))
             AND id NOT IN (SELECT id FROM ${s}.baselines ORDER BY saved_at DESC, id DESC LIMIT $1)`,
-        [policy.baselinesKept],
+        [policy.baselinesKept, today],
       );
       return { runs: deletedRuns.rowCount ?? 0, findings: findings.rowCount ?? 0, dayProfiles: dayProfiles.rowCount ?? 0, baselines: baselines.rowCount ?? 0 };
     }),

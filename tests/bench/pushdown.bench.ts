@@ -11,7 +11,7 @@
  *   PLUMBLINE_BENCH_DATABASE_URL=postgres://postgres@127.0.0.1:5432/test npx tsx tests/bench/pushdown.bench.ts
  *
  * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_BIG_ROWS changes the size of
- * the big day (default 10000000). Creates and drops its own schemas, database and servers.
+ * the big day (default 10000000); PLUMBLINE_BENCH_PARTS=3 (or 1,2) runs only the parts named. Creates and drops its own schemas, database and servers.
  */
 import { spawnSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
@@ -107,71 +107,78 @@ export async function main(): Promise<void> {
   await client.connect();
   let shards: Shards | undefined;
   try {
-    // ---- 1. one server, 1M rows x 50 features
+    const parts = (process.env['PLUMBLINE_BENCH_PARTS'] ?? '1,2,3').split(',').map((p) => p.trim());
     await client.query(`CREATE SCHEMA ${src}`);
-    const wide = `${src}.day_rows`;
-    await createTable(client, wide, 50);
     let t0 = Date.now();
-    for (const d of [...BASELINE, DAY]) await addDay(client, wide, 50, d.date, d.rows, d === DAY ? 0.05 : 0);
-    await client.query(`CREATE INDEX ON ${wide} (snapshot_date)`);
-    await client.query(`ANALYZE ${wide}`);
-    console.log(`pushdown.bench: generated ${(BASELINE.reduce((s, d) => s + d.rows, 0) + DAY.rows).toLocaleString('en-US')} rows x 50 features in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
-    const stream = timedRun(writeConfig(dir, 'stream', wide, 50, 'stream', stores[0]!), DAY.date, url, url);
-    const push = timedRun(writeConfig(dir, 'push', wide, 50, 'pushdown', stores[1]!), DAY.date, url, url);
-    console.log('');
-    console.log('1M rows x 50 features, one server      run        peak RSS');
-    console.log(`  stream (rows come to Plumbline)   ${fmt(stream)}`);
-    console.log(`  pushdown (aggregates come back)   ${fmt(push)}`);
+    // ---- 1. one server, 1M rows x 50 features (part 2 copies these rows to the shards)
+    if (parts.includes('1') || parts.includes('2')) {
+      const wide = `${src}.day_rows`;
+      await createTable(client, wide, 50);
+      t0 = Date.now();
+      for (const d of [...BASELINE, DAY]) await addDay(client, wide, 50, d.date, d.rows, d === DAY ? 0.05 : 0);
+      await client.query(`CREATE INDEX ON ${wide} (snapshot_date)`);
+      await client.query(`ANALYZE ${wide}`);
+      console.log(`pushdown.bench: generated ${(BASELINE.reduce((s, d) => s + d.rows, 0) + DAY.rows).toLocaleString('en-US')} rows x 50 features in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+      const stream = timedRun(writeConfig(dir, 'stream', wide, 50, 'stream', stores[0]!), DAY.date, url, url);
+      const push = timedRun(writeConfig(dir, 'push', wide, 50, 'pushdown', stores[1]!), DAY.date, url, url);
+      console.log('');
+      console.log('1M rows x 50 features, one server      run        peak RSS');
+      console.log(`  stream (rows come to Plumbline)   ${fmt(stream)}`);
+      console.log(`  pushdown (aggregates come back)   ${fmt(push)}`);
 
-    // ---- 2. the same rows on two shards (postgres_fdw, partitioned by hash of the list id)
-    try {
-      shards = await startShards(2);
-    } catch (err) {
-      console.log(`pushdown.bench: cannot start two PostgreSQL 15 servers (${(err as Error).message.split('\n')[0]}); sharded figures skipped`);
-    }
-    if (shards !== undefined) {
-      await client.query(`CREATE DATABASE ${coordDb}`);
-      const u = new URL(url);
-      u.pathname = `/${coordDb}`;
-      const coordUrl = u.toString();
-      const coord = new pg.Client({ connectionString: coordUrl });
-      await coord.connect();
-      try {
-        await coord.query(`CREATE EXTENSION postgres_fdw; CREATE SCHEMA src`);
-        await createTable(coord, 'src.day_rows_local', 50);
-        await coord.query(`CREATE TABLE src.day_rows (LIKE src.day_rows_local) PARTITION BY HASH (list_id)`);
-        for (const [i, s] of shards.shards.entries()) {
-          const sc = new pg.Client({ connectionString: s.url });
-          await sc.connect();
-          await createTable(sc, 'public.day_rows', 50);
-          await sc.end();
-          await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '5000', fetch_size '50000')`);
-          await coord.query(`CREATE USER MAPPING FOR CURRENT_USER SERVER shard${i} OPTIONS (user 'postgres')`);
-          await coord.query(`CREATE FOREIGN TABLE src.day_rows_p${i} PARTITION OF src.day_rows FOR VALUES WITH (MODULUS 2, REMAINDER ${i}) SERVER shard${i} OPTIONS (schema_name 'public', table_name 'day_rows')`);
+      // ---- 2. the same rows on two shards (postgres_fdw, partitioned by hash of the list id)
+      if (parts.includes('2')) {
+        try {
+          shards = await startShards(2);
+        } catch (err) {
+          console.log(`pushdown.bench: cannot start two PostgreSQL 15 servers (${(err as Error).message.split('\n')[0]}); sharded figures skipped`);
         }
-        t0 = Date.now();
-        // Rows generated on the coordinator, routed to the shards by the partitioned table.
-        for (const d of [...BASELINE, DAY]) await addDay(coord, 'src.day_rows', 50, d.date, d.rows, d === DAY ? 0.05 : 0);
-        for (const s of shards.shards) {
-          const sc = new pg.Client({ connectionString: s.url });
-          await sc.connect();
-          await sc.query('CREATE INDEX ON public.day_rows (snapshot_date); ANALYZE public.day_rows');
-          await sc.end();
+        if (shards !== undefined) {
+          await client.query(`CREATE DATABASE ${coordDb}`);
+          const u = new URL(url);
+          u.pathname = `/${coordDb}`;
+          const coordUrl = u.toString();
+          const coord = new pg.Client({ connectionString: coordUrl });
+          await coord.connect();
+          try {
+            await coord.query(`CREATE EXTENSION postgres_fdw; CREATE SCHEMA src`);
+            await createTable(coord, 'src.day_rows_local', 50);
+            await coord.query(`CREATE TABLE src.day_rows (LIKE src.day_rows_local) PARTITION BY HASH (list_id)`);
+            for (const [i, s] of shards.shards.entries()) {
+              const sc = new pg.Client({ connectionString: s.url });
+              await sc.connect();
+              await createTable(sc, 'public.day_rows', 50);
+              await sc.end();
+              await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '5000', fetch_size '50000')`);
+              await coord.query(`CREATE USER MAPPING FOR CURRENT_USER SERVER shard${i} OPTIONS (user 'postgres')`);
+              await coord.query(`CREATE FOREIGN TABLE src.day_rows_p${i} PARTITION OF src.day_rows FOR VALUES WITH (MODULUS 2, REMAINDER ${i}) SERVER shard${i} OPTIONS (schema_name 'public', table_name 'day_rows')`);
+            }
+            t0 = Date.now();
+            // Rows generated on the coordinator, routed to the shards by the partitioned table.
+            for (const d of [...BASELINE, DAY]) await addDay(coord, 'src.day_rows', 50, d.date, d.rows, d === DAY ? 0.05 : 0);
+            for (const s of shards.shards) {
+              const sc = new pg.Client({ connectionString: s.url });
+              await sc.connect();
+              await sc.query('CREATE INDEX ON public.day_rows (snapshot_date); ANALYZE public.day_rows');
+              await sc.end();
+            }
+            console.log(`pushdown.bench: loaded the two shards in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+            const sharded = timedRun(writeConfig(dir, 'shard', 'src.day_rows', 50, 'pushdown', stores[2]!), DAY.date, coordUrl, url);
+            console.log('');
+            console.log('1M rows x 50 features, two shards      run        peak RSS');
+            console.log(`  pushdown via the coordinator      ${fmt(sharded)}`);
+            console.log('  (the shards and the coordinator share this machine\'s cores, so this is no speed-up figure)');
+          } finally {
+            await coord.end();
+            await client.query(`DROP DATABASE IF EXISTS ${coordDb} WITH (FORCE)`);
+            await shards.stop();
+          }
         }
-        console.log(`pushdown.bench: loaded the two shards in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
-        const sharded = timedRun(writeConfig(dir, 'shard', 'src.day_rows', 50, 'pushdown', stores[2]!), DAY.date, coordUrl, url);
-        console.log('');
-        console.log('1M rows x 50 features, two shards      run        peak RSS');
-        console.log(`  pushdown via the coordinator      ${fmt(sharded)}`);
-        console.log('  (the shards and the coordinator share this machine\'s cores, so this is no speed-up figure)');
-      } finally {
-        await coord.end();
-        await client.query(`DROP DATABASE IF EXISTS ${coordDb} WITH (FORCE)`);
-        await shards.stop();
       }
     }
 
     // ---- 3. peak RSS as the day grows (pushdown, 10 features)
+    if (!parts.includes('3')) return;
     const narrow = `${src}.big_rows`;
     await createTable(client, narrow, 10);
     const sizes = [1_000_000, bigRows].filter((n, i, a) => a.indexOf(n) === i);

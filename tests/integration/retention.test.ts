@@ -96,6 +96,14 @@ describe.skipIf(url === undefined)('store retention and run atomicity on a Postg
     const next = await recordMissingSnapshot(d('2024-01-01'), '2024-01-01', 'test history');
     expect(next.findings[0]!.alert.consecutiveRuns).toBe(5);
 
+    // A run stored for a date after today (a clock that was wrong) does not push the newest
+    // dates up to today out of the two that are kept.
+    const future = await freshStore();
+    const f = (date: string): JobDeps => deps(config, future, runFor(date));
+    for (const date of ['2020-01-01', '2020-06-01', '2021-01-01', '2030-01-01']) await recordMissingSnapshot(f(date), date, 'test history');
+    await future.prune({ reportDays: 30, dayProfileDays: 30, keepDayProfiles: null, baselinesKept: 1 }, '2024-01-01');
+    expect(await rows(future, `SELECT DISTINCT run_date::text AS v FROM $S.runs ORDER BY 1`)).toEqual(['2020-06-01', '2021-01-01', '2030-01-01']);
+
     // Inside the window nothing goes.
     expect(await store.prune({ reportDays: 10_000, dayProfileDays: 10_000, keepDayProfiles: null, baselinesKept: 1 }, '2024-01-02')).toEqual({ runs: 0, findings: 0, dayProfiles: 0, baselines: 0 });
     await expect(store.prune({ reportDays: 0, dayProfileDays: 1, keepDayProfiles: null, baselinesKept: 1 }, '2024-01-02')).rejects.toThrow(/reportDays must be an integer >= 1/);

@@ -15,7 +15,7 @@ import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { createTableSql, loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
 import type { Report } from '../../src/report/index.ts';
-import { buildPushdownQueries, foreignPartitionsOf, planSource, preparePushdownSession } from '../../src/source/index.ts';
+import { buildPushdownQueries, foreignPartitionsOf, listSampleCondition, planSource, preparePushdownSession } from '../../src/source/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { runDays } from '../support/run-days.ts';
@@ -224,6 +224,36 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       }
       expect(text.match(/Relations: Aggregate on/g), text).toHaveLength(2 * shardedConfig.features.length);
       expect(text).toMatch(/Async Foreign Scan/);
+      await client.query('ROLLBACK');
+    } finally {
+      client.release();
+      await pool.end();
+    }
+  });
+
+  it('filters the whole-list sample on the shards (EXPLAIN VERBOSE): the md5 condition is in the remote statements', async (ctx) => {
+    if (skipReason !== undefined) ctx.skip(skipReason);
+    const pool = new pg.Pool({ connectionString: coordUrl, max: 1 });
+    pool.on('error', () => undefined);
+    const client = await pool.connect();
+    try {
+      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      const plan = await planSource(client, shardedConfig);
+      const condition = listSampleCondition(plan.listIdExpression, 0.25);
+      const sql = `SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${plan.dateColumn} = DATE '${RUN_DATES[0]!}' AND ${condition}`;
+      const text = (await client.query<{ 'QUERY PLAN': string }>(`EXPLAIN (VERBOSE, COSTS OFF) ${sql}`)).rows.map((r) => r['QUERY PLAN']).join('\n');
+      const remote = text.split('\n').filter((l) => l.includes('Remote SQL:'));
+      expect(remote, text).toHaveLength(2);
+      for (const line of remote) expect(line, text).toMatch(/md5\(/);
+      // Nothing left to filter on the coordinator.
+      expect(text, text).not.toMatch(/^\s*Filter:/m);
+      // The same lists as on one plain table: a quarter of them, give or take.
+      const counts = await client.query<{ all: string; kept: string }>(
+        `SELECT count(DISTINCT ${plan.listIdExpression})::text AS all, count(DISTINCT ${plan.listIdExpression}) FILTER (WHERE ${condition})::text AS kept FROM ${plan.relation} WHERE ${plan.dateColumn} = DATE '${RUN_DATES[0]!}'`,
+      );
+      const share = Number(counts.rows[0]!.kept) / Number(counts.rows[0]!.all);
+      expect(share).toBeGreaterThan(0.15);
+      expect(share).toBeLessThan(0.35);
       await client.query('ROLLBACK');
     } finally {
       client.release();

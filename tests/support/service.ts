@@ -78,6 +78,8 @@ export interface ServiceOptions {
   echo?: boolean;
   /** Given as PLUMBLINE_RUN_TOKEN, and sent by post() as its bearer token. */
   runToken?: string;
+  /** More `node --import` modules, loaded into the service's process before the CLI. */
+  imports?: string[];
 }
 
 /** A running `plumbline serve` child process. */
@@ -107,7 +109,7 @@ export class ServiceProcess {
       ...options.env,
     };
     this.runToken = options.runToken;
-    this.child = spawn(process.execPath, ['--import', 'tsx', 'src/cli.ts', 'serve', '--config', configFile, ...args], {
+    this.child = spawn(process.execPath, ['--import', 'tsx', ...(options.imports ?? []).flatMap((m) => ['--import', m]), 'src/cli.ts', 'serve', '--config', configFile, ...args], {
       cwd: REPO_ROOT,
       env,
       stdio: ['ignore', 'pipe', 'pipe'],

@@ -7,7 +7,7 @@ import { describe, expect, it } from 'vitest';
 import { parseConfig, type Config } from '../../../src/config/index.ts';
 import { buildDayAndSliceProfiles, buildDayProfile, buildSliceProfiles, planSlices, planSlicesOfColumns, segmentLabel, sliceRows, subsetColumns, tallySegment, type SliceDef } from '../../../src/profile/index.ts';
 import { NULL_POSITION, type DayColumns } from '../../../src/source/index.ts';
-import { MISSING_NULL } from '../../../src/stats/index.ts';
+import { MISSING_NULL, binEdgesFromSorted, ks2Sorted, radixSortedCopy } from '../../../src/stats/index.ts';
 
 function config(slices: Config['slices'] | Record<string, unknown>): Config {
   return parseConfig(
@@ -231,5 +231,45 @@ describe('buildDayAndSliceProfiles', () => {
     expect(east.association.position.count).toBeGreaterThan(50);
     expect(east.association.position.sum).toBeLessThan(0);
     expect(east.withinList!.listsJudged).toBeGreaterThan(50);
+  });
+});
+
+describe('a slice with more values than slices.valuesPerDay', () => {
+  it('sorts a sample by row holding the extremes, and counts everything else over every row', async () => {
+    const c = parseConfig(
+      {
+        source: { table: 'impressions', columns: { score: 'model_score' } },
+        features: [{ name: 'relevance', withinList: { rule: 'minmax' } }, { name: 'model_score' }, { name: 'price' }],
+        slices: { segments: [{ column: 'market', maxValues: 1, minRows: 10 }], valuesPerDay: 1000 },
+      },
+      'test',
+    );
+    const cols = randomDay(3000, false);
+    const def = planSlicesOfColumns(c, cols)[0]!;
+    const rows = sliceRows(cols, def);
+    expect(rows.length).toBeGreaterThan(4000);
+    // Bins from the slice's own values, so that bin counts are compared on real bins.
+    const bins = Object.fromEntries(
+      c.features.map((f, fi) => [f.name, binEdgesFromSorted(radixSortedCopy(Float64Array.from(rows, (r) => cols.numeric[fi]![r]!)).filter(Number.isFinite), 10)]),
+    );
+    const [sampled] = await buildSliceProfiles(cols, c, [def], () => bins);
+    const full = await buildDayProfile(subsetColumns(randomDay(3000, false), rows), c, bins);
+    for (const f of c.features) {
+      const s = sampled!.profile.features[f.name]!;
+      const a = full.features[f.name]!;
+      if (s.kind === 'categorical' || a.kind === 'categorical') throw new Error('numeric expected');
+      const { sortedSample, distinct, ...rest } = s;
+      const { sortedSample: all, distinct: allDistinct, ...allRest } = a;
+      // Counts, bins, mean, within-list checks and association: every row.
+      expect(rest).toEqual(allRest);
+      // About valuesPerDay values (a binomial count), plus the smallest and largest.
+      expect(sortedSample.length).toBeGreaterThan(800);
+      expect(sortedSample.length).toBeLessThan(1250);
+      expect(sortedSample[0]).toBe(all[0]);
+      expect(sortedSample[sortedSample.length - 1]).toBe(all[all.length - 1]);
+      expect(distinct).toBeLessThanOrEqual(allDistinct);
+      // A sample by row, not a biased part: its ECDF stays close to the slice's.
+      expect(ks2Sorted(sortedSample, all).d).toBeLessThan(0.06);
+    }
   });
 });
