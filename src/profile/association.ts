@@ -18,26 +18,33 @@ export interface ServedOrder {
   start: Int32Array;
   /** Row index per entry. */
   rows: Int32Array;
-  /** Position per entry (ascending within a list). */
-  position: Float64Array;
-  /** Average rank of the position among the list's entries (ties share the mean rank). */
-  positionRank: Float64Array;
-  /** Served rank per entry, 1 + the entries of the list with a smaller position (rank() in SQL). */
-  servedRank: Int32Array;
+  /**
+   * Average rank of the position among the list's entries (ties share the mean rank). It
+   * rises with the position inside a list and is equal exactly where positions tie, so it
+   * stands in for the position wherever only order and ties count (no position is kept).
+   */
+  positionRank: RankArray;
   /** Model score per entry (NaN when missing), or null without a score column. */
   score: Float64Array | null;
   /** Average rank of the score among the list's entries, valid when the whole list has a finite score. */
-  scoreRank: Float64Array | null;
+  scoreRank: RankArray | null;
   /** 1 when every entry of the list has a finite score. */
   scoreComplete: Uint8Array | null;
 }
 
-function shared<T extends Float64Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {
+/**
+ * Average ranks inside a list are half-integers: exact in float32 below 2^23, so a day whose
+ * lists are all shorter (any day under 2^23 rows) keeps them in half the memory.
+ */
+type RankArray = Float32Array | Float64Array;
+const FLOAT32_EXACT_RANKS = 8388608;
+
+function shared<T extends Float64Array | Float32Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {
   return new ctor(new SharedArrayBuffer(Math.max(1, n) * ctor.BYTES_PER_ELEMENT));
 }
 
 /** Average ranks of values already sorted ascending (a linear walk over the tie groups). */
-function ranksOfSortedInto(sorted: ArrayLike<number>, from: number, n: number, out: Float64Array, outFrom: number): void {
+function ranksOfSortedInto(sorted: ArrayLike<number>, from: number, n: number, out: RankArray, outFrom: number): void {
   let i = 0;
   while (i < n) {
     let j = i + 1;
@@ -65,13 +72,13 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
   }
   start[lists] = total;
   const rows = shared(Int32Array, total);
-  const pos = shared(Float64Array, total);
-  const positionRank = shared(Float64Array, total);
-  const servedRank = shared(Int32Array, total);
+  const ranks = (): RankArray => (total < FLOAT32_EXACT_RANKS ? shared(Float32Array, total) : shared(Float64Array, total));
+  const positionRank = ranks();
   const sc = score === null ? null : shared(Float64Array, total);
-  const scoreRank = score === null ? null : shared(Float64Array, total);
+  const scoreRank = score === null ? null : ranks();
   const scoreComplete = score === null ? null : shared(Uint8Array, lists);
   let keys = new Float64Array(64);
+  let pos = new Int32Array(64);
   const scratch = new RankScratch();
   for (let l = 0; l < lists; l++) {
     const a = g.start[l]!;
@@ -79,7 +86,10 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
     const e0 = start[l]!;
     const n = start[l + 1]! - e0;
     if (n === 0) continue;
-    if (keys.length < n) keys = new Float64Array(n * 2);
+    if (keys.length < n) {
+      keys = new Float64Array(n * 2);
+      pos = new Int32Array(n * 2);
+    }
     let min = Infinity;
     for (let k = a; k < b; k++) {
       const p = position[g.order[k]!]!;
@@ -102,14 +112,9 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       const k = a + (b - a >= PACK ? keys[t]! : keys[t]! % PACK);
       const r = g.order[k]!;
       rows[e0 + t] = r;
-      pos[e0 + t] = position[r]!;
+      pos[t] = position[r]!;
     }
-    ranksOfSortedInto(pos, e0, n, positionRank, e0);
-    let rank = 1;
-    for (let t = 0; t < n; t++) {
-      if (t > 0 && pos[e0 + t] !== pos[e0 + t - 1]) rank = t + 1;
-      servedRank[e0 + t] = rank;
-    }
+    ranksOfSortedInto(pos, 0, n, positionRank, e0);
     if (score !== null) {
       let complete = 1;
       for (let t = 0; t < n; t++) {
@@ -125,7 +130,7 @@ export function servedOrder(position: Int32Array, g: ListGrouping, lists: number
       }
     }
   }
-  return { start, rows, position: pos, positionRank, servedRank, score: sc, scoreRank, scoreComplete };
+  return { start, rows, positionRank, score: sc, scoreRank, scoreComplete };
 }
 
 export function emptyCorrelationSums(): RankCorrelationSums {
@@ -188,7 +193,8 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       const x = values[served.rows[e0 + t]!]!;
       if (Number.isFinite(x)) {
         sp.x[m] = x;
-        sp.y[m] = served.position[e0 + t]!;
+        // The position's rank in the list orders and ties the pairs as the position does.
+        sp.y[m] = served.positionRank[e0 + t]!;
         m++;
       }
     }
@@ -261,6 +267,7 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
   };
   let ys = new Float64Array(64);
   let scratch = new Float64Array(64);
+  let servedRank = new Int32Array(64);
   const lists = served.start.length - 1;
   for (let l = 0; l < lists; l++) {
     const e0 = served.start[l]!;
@@ -269,19 +276,24 @@ export function outcomeCounts(label: Float64Array, served: ServedOrder, k: numbe
     if (ys.length < n) {
       ys = new Float64Array(n * 2);
       scratch = new Float64Array(n * 2);
+      servedRank = new Int32Array(n * 2);
     }
     let positives = 0;
+    let rank = 1;
     for (let t = 0; t < n; t++) {
+      // Served rank: 1 + the entries of the list with a smaller position (rank() in SQL).
+      if (t > 0 && served.positionRank[e0 + t] !== served.positionRank[e0 + t - 1]) rank = t + 1;
+      servedRank[t] = rank;
       const y = label[served.rows[e0 + t]!]!;
       ys[t] = y;
       if (y > 0) {
         positives++;
-        out.positivesByBucket[positionBucket(served.servedRank[e0 + t]!)]!++;
+        out.positivesByBucket[positionBucket(rank)]!++;
       }
     }
     if (positives === 0) continue;
     const labels = ys.subarray(0, n);
-    const rr = reciprocalRank(labels, served.servedRank.subarray(e0, e0 + n))!;
+    const rr = reciprocalRank(labels, servedRank.subarray(0, n))!;
     // Rows tied on position take their average rank (NDCG then stays <= 1).
     const nd = ndcgAtK(labels, k, served.positionRank.subarray(e0, e0 + n), scratch)!;
     out.lists++;

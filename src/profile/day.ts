@@ -10,6 +10,7 @@ import {
   boundCategories,
   meanOfSplitSum,
   distinctCountSorted,
+  halfSortScratchLength,
   isFlatList,
   listAggregate,
   qualityCounts,
@@ -155,11 +156,15 @@ function gatherMissing(missing: Uint8Array, rows: Int32Array): Uint8Array | null
   return any ? out : null;
 }
 
-/** A sort buffer kept across the features one thread profiles (one column's worth, grown on demand). */
+/**
+ * A sort buffer kept across the features one thread profiles, grown on demand: half a
+ * column's worth, the least radixSortInPlace sorts with (every thread holds one at once).
+ */
 export class SortScratch {
   private buffer = new Float64Array(0);
   of(n: number): Float64Array {
-    if (this.buffer.length < n) this.buffer = new Float64Array(n);
+    const length = halfSortScratchLength(n);
+    if (this.buffer.length < length) this.buffer = new Float64Array(length);
     return this.buffer;
   }
 }

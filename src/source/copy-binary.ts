@@ -36,8 +36,16 @@ export interface TupleSink {
   tuple?(buf: Buffer, view: DataView, start: number, fieldCount: number): void;
 }
 
+/** Bytes of the next chunk first joined to a carried-over tuple start (doubled until the tuple ends). */
+const FIRST_JOIN = 4096;
+
 export class CopyBinaryParser {
-  private pending: Buffer | null = null;
+  /**
+   * The unparsed end of the last chunk (a tuple, or the header, that the next chunk ends), in
+   * a buffer of our own that is reused: a chunk is not copied whole to join it to this.
+   */
+  private carry = Buffer.alloc(0);
+  private carryLength = 0;
   private headerDone = false;
   private finished = false;
   tuples = 0;
@@ -48,26 +56,57 @@ export class CopyBinaryParser {
   ) {}
 
   push(chunk: Buffer): void {
-    const buf = this.pending === null ? chunk : Buffer.concat([this.pending, chunk]);
-    let pos = 0;
+    let from = 0;
+    if (this.carryLength > 0) {
+      // Join the carried bytes with as much of the chunk as it takes to finish their tuple.
+      let take = Math.min(chunk.length, Math.max(FIRST_JOIN, 2 * this.carryLength));
+      for (;;) {
+        const kept = this.carryLength;
+        this.reserve(kept + take);
+        chunk.copy(this.carry, kept, 0, take);
+        const used = this.parse(this.carry.subarray(0, kept + take), 0);
+        if (used >= kept) {
+          from = used - kept;
+          this.carryLength = 0;
+          break;
+        }
+        // Still unfinished: keep it (less what was parsed), and join more of the chunk, or all of it.
+        const end = take === chunk.length ? kept + take : kept;
+        this.carry.copyWithin(0, used, end);
+        this.carryLength = end - used;
+        if (take === chunk.length) return;
+        take = Math.min(chunk.length, 2 * take);
+      }
+    }
+    const used = this.parse(chunk, from);
+    if (used < chunk.length) {
+      this.reserve(chunk.length - used);
+      this.carryLength = chunk.copy(this.carry, 0, used);
+    }
+  }
+
+  /** Grows the carry buffer to hold n bytes, keeping its contents. */
+  private reserve(n: number): void {
+    if (this.carry.length >= n) return;
+    const grown = Buffer.allocUnsafe(Math.max(n, 2 * this.carry.length));
+    this.carry.copy(grown, 0, 0, this.carryLength);
+    this.carry = grown;
+  }
+
+  /** Parses the complete tuples of buf from `pos` on; returns where the first incomplete one starts (or buf.length). */
+  private parse(buf: Buffer, pos: number): number {
+    const n = buf.length;
     if (!this.headerDone) {
-      if (buf.length < HEADER_LENGTH) {
-        this.pending = buf;
-        return;
-      }
-      if (!buf.subarray(0, 11).equals(SIGNATURE)) throw new DataError('COPY stream does not start with the binary COPY signature');
-      const flags = buf.readUInt32BE(11);
+      if (n - pos < HEADER_LENGTH) return pos;
+      if (!buf.subarray(pos, pos + 11).equals(SIGNATURE)) throw new DataError('COPY stream does not start with the binary COPY signature');
+      const flags = buf.readUInt32BE(pos + 11);
       if ((flags & FLAGS_READER_MUST_ABORT) !== 0) throw new DataError(`COPY header has flags 0x${flags.toString(16)}: OIDs or a format this reader does not know`);
-      const extension = buf.readInt32BE(15);
+      const extension = buf.readInt32BE(pos + 15);
       if (extension < 0) throw new DataError(`COPY header has a negative extension length (${extension})`);
-      if (buf.length < HEADER_LENGTH + extension) {
-        this.pending = buf;
-        return;
-      }
-      pos = HEADER_LENGTH + extension;
+      if (n - pos < HEADER_LENGTH + extension) return pos;
+      pos += HEADER_LENGTH + extension;
       this.headerDone = true;
     }
-    const n = buf.length;
     let view: DataView | undefined;
     if (this.finished && pos < n) throw new DataError('COPY stream has data after its trailer');
     while (pos + 2 <= n) {
@@ -98,7 +137,7 @@ export class CopyBinaryParser {
       }
       if (!complete) break;
       if (this.sink.tuple !== undefined) {
-        // One DataView per chunk: its getters are cheaper than Buffer's checked readers.
+        // One DataView per buffer: its getters are cheaper than Buffer's checked readers.
         view ??= new DataView(buf.buffer, buf.byteOffset, buf.byteLength);
         this.sink.tuple(buf, view, pos + 2, fieldCount);
       }
@@ -118,16 +157,12 @@ export class CopyBinaryParser {
       this.tuples++;
       pos = end;
     }
-    this.pending = pos < n ? buf.subarray(pos) : null;
-    if (this.pending !== null && this.pending.buffer.byteLength > 4 * this.pending.length) {
-      // Do not keep a large chunk alive for a small remainder.
-      this.pending = Buffer.from(this.pending);
-    }
+    return pos;
   }
 
   end(): void {
     if (!this.headerDone) throw new DataError('COPY stream ended before its header');
-    if (this.pending !== null && this.pending.length > 0) throw new DataError(`COPY stream ended inside a tuple (${this.pending.length} bytes left)`);
+    if (this.carryLength > 0) throw new DataError(`COPY stream ended inside a tuple (${this.carryLength} bytes left)`);
     if (!this.finished) throw new DataError('COPY stream ended without its trailer');
   }
 }

@@ -49,7 +49,12 @@ function typedArrayName(value: ArrayBufferView): TypedArrayName | null {
   return null;
 }
 
-function typedToBase64(name: TypedArrayName, value: ArrayLike<number>): string {
+/** 1 is 0x3FF00000_00000000: on a little-endian platform its high word comes second. */
+const LITTLE_ENDIAN = new Uint32Array(Float64Array.of(1).buffer)[1] === 0x3ff00000;
+
+function typedToBase64(name: TypedArrayName, value: ArrayBufferView & ArrayLike<number>): string {
+  // A little-endian platform holds the values in the stored byte order already: no copy.
+  if (LITTLE_ENDIAN) return Buffer.from(value.buffer, value.byteOffset, value.byteLength).toString('base64');
   const n = value.length;
   const buf = Buffer.allocUnsafe(n * TYPED[name].bytes);
   for (let i = 0; i < n; i++) {
@@ -90,7 +95,7 @@ export function encodeJson(value: unknown): unknown {
   if (ArrayBuffer.isView(value)) {
     const name = typedArrayName(value);
     if (name === null) throw new StoreError(`cannot store a ${value.constructor.name} as JSON`);
-    return { [TAG]: name, v: typedToBase64(name, value as unknown as ArrayLike<number>) };
+    return { [TAG]: name, v: typedToBase64(name, value as ArrayBufferView & ArrayLike<number>) };
   }
   if (Array.isArray(value)) return value.map(encodeJson);
   if (value instanceof Map) return { [TAG]: 'Map', v: [...value].map(([k, v]) => [k, encodeJson(v)]) };

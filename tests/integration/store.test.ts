@@ -680,7 +680,8 @@ function storeSuite(target: Target): void {
           listsWithoutPositive: 20,
         },
         bins: {
-          price_z: { edges: Float64Array.of(Number.NEGATIVE_INFINITY, -0.5, 0.5, Number.POSITIVE_INFINITY), pointMasses: [0] },
+          // A view into a longer array: only its own values are stored.
+          price_z: { edges: Float64Array.of(7, Number.NEGATIVE_INFINITY, -0.5, 0.5, Number.POSITIVE_INFINITY, 9).subarray(1, 5), pointMasses: [0] },
         } as unknown as BaselineProfile['bins'],
         features,
         sampleSize: 200_000,

@@ -85,6 +85,34 @@ describe('ranking aggregates of a day (stream engine)', () => {
     expect(o.positivesByBucket).toEqual([0, 2, 0, 1, 0, 0, 0]);
   });
 
+  it('ranks tied positions together: in the association among complete pairs, and in the served rank of the outcome', async () => {
+    // One list; rows by position 1, 1, 2, 2, 3 (rows 1 and 4, then 0 and 2, then 3); x is null at row 3.
+    const nan = Number.NaN;
+    const tied: DayColumns = {
+      ...columns(),
+      rows: 5,
+      totalRows: 5,
+      listOf: Int32Array.of(0, 0, 0, 0, 0),
+      lists: 1,
+      itemHash: Float64Array.of(1, 2, 3, 4, 5),
+      position: Int32Array.of(2, 1, 2, 3, 1),
+      label: Float64Array.of(0, 0, 1, 0, 0),
+      numeric: [Float64Array.of(0.4, 0.1, 0.7, nan, 0.3), Float64Array.of(1, 1, 1, 1, 1), Float64Array.of(0.5, 0.9, 0.2, 0.1, 0.8)],
+      missing: [Uint8Array.of(0, 0, 0, MISSING_NULL, 0), null, null],
+    };
+    const p = await buildDayProfile(tied, config, null);
+    // Pairs with x present: spearmanr([0.4, 0.1, 0.7, 0.3], [2, 1, 2, 1]).correlation = 0.8944271909999159 (SciPy 1.17.1).
+    const x = (p.features['x'] as NumericProfile).association!;
+    expect(x.position.count).toBe(1);
+    expect(x.position.sum).toBeCloseTo(0.8944271909999159, 14);
+    // The positive (row 2) sits at position 2 behind two rows at position 1: served rank 3 (rank() in SQL), RR 1/3,
+    // bucket "3"; NDCG@10 takes the tied rows' average rank 3.5: (1 / log2(1 + 3.5)) / (1 / log2(2)).
+    const o = p.outcome!;
+    expect(o.reciprocalRank).toEqual({ count: 1, sum: 1 / 3, sumSq: 1 / 9 });
+    expect(o.positivesByBucket).toEqual([0, 0, 1, 0, 0, 0, 0]);
+    expect(o.ndcg.sum).toBeCloseTo(1 / Math.log2(4.5), 14);
+  });
+
   it('keeps each day apart in the baseline (for the spread over days)', async () => {
     const d1 = await buildDayProfile(columns(), config, null);
     const d2 = { ...(await buildDayProfile(columns(), config, null)), date: '2025-03-11' };

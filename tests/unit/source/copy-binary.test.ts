@@ -152,6 +152,17 @@ describe('a hand-built stream of int4, float8 and text fields', () => {
     expect(parse(Buffer.concat([header({ flags: 0x0000ffff }), tuple([int4(1)]), trailer()]), 1).tuples).toEqual([[int4(1)]]);
   });
 
+  it('arrives whole when a tuple spans many chunks, each shorter than the tuple', () => {
+    // A field of 20,000 bytes in chunks of 997 bytes: the tuple begun in one chunk is ended
+    // twenty chunks later, so the bytes carried over grow across pushes.
+    const long: (Buffer | null)[][] = [[int4(3), text('ä'.repeat(10_000))], [null, text('bassoon')], [int4(4), text('z'.repeat(9_000))]];
+    const stream = Buffer.concat([header(), ...long.map(tuple), trailer()]);
+    for (const step of [997, 4096, 5000]) {
+      const cuts = Array.from({ length: Math.floor((stream.length - 1) / step) }, (_, i) => (i + 1) * step);
+      expect(show(parse(stream, 2, cuts).tuples), `chunks of ${step}`).toBe(show(long));
+    }
+  });
+
   it('handles a stream without tuples', () => {
     expect(parse(Buffer.concat([header(), trailer()]), 4).tuples).toEqual([]);
   });

@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import fc from 'fast-check';
-import { radixSortInPlace, radixSortedCopy } from '../../../src/stats/index.ts';
+import { halfSortScratchLength, radixSortInPlace, radixSortedCopy } from '../../../src/stats/index.ts';
 import { normalSample } from './prng.ts';
 
 function sameBits(a: Float64Array, b: Float64Array): boolean {
@@ -76,5 +76,17 @@ describe('radixSortInPlace', () => {
       expect(Array.from(column.subarray(5 + values.length))).toEqual([-1, -1, -1, -1, -1]);
     }
     expect(Array.from(radixSortInPlace(Float64Array.of(2, -0, 0, -1)))).toEqual([-1, -0, 0, 2]);
+  });
+
+  it('sorts with a scratch of half the length (halves sorted apart, then merged), -0 before +0 from either half', () => {
+    // Zeros of both signs in both halves, ties across the halves, an odd length.
+    const zeros = Float64Array.from({ length: 12_001 }, (_, i) => (i % 5 === 0 ? (i % 3 === 0 ? -0 : 0) : ((i * 7919) % 101) - 50));
+    for (const values of [normalSample(4, 9001), zeros, Float64Array.from({ length: 10_000 }, (_, i) => 10_000 - i)]) {
+      const scratch = new Float64Array(halfSortScratchLength(values.length));
+      expect(scratch.length).toBeLessThan(values.length);
+      const part = values.slice();
+      expect(radixSortInPlace(part, scratch)).toBe(part);
+      expect(sameBits(part, values.slice().sort())).toBe(true);
+    }
   });
 });
