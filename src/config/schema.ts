@@ -334,9 +334,10 @@ const SlicesSchema = z
     /** Values kept per feature and slice in a slice's baseline (KS and bin edges). */
     sampleSize: positiveInt.min(1000).max(1_000_000).default(10_000),
     /**
-     * About this many of a slice's finite values a day per feature are sorted for its KS and
-     * distinct-value checks (a sample by row, always with the smallest and largest value);
-     * counts, PSI bins, means and within-list checks use every row.
+     * About this many of a slice's finite values a day per feature are sorted for its KS, PSI
+     * and distinct-value checks (a sample by row, always with the smallest and largest value;
+     * PSI's bin counts are scaled up to all finite values); quality counts, means and
+     * within-list checks use every row.
      */
     valuesPerDay: positiveInt.min(1000).max(5_000_000).default(50_000),
   })

@@ -5,7 +5,6 @@
 import type { Config } from '../config/index.ts';
 import {
   addToSplitSum,
-  binCounts,
   binCountsSorted,
   boundCategories,
   meanOfSplitSum,
@@ -178,9 +177,10 @@ export class SortScratch {
  * first and the copy is consumed instead; the column is left as it was. With more finite
  * values than `valueCap` (a slice, DayColumns.valueCap), the sorted sample is a sample by row
  * of about that size plus the smallest and largest value: sorting is most of a profile's
- * cost, and a slice's KS counts lists, not rows (checks/slices.ts), so a sample of tens of
- * thousands of values loses nothing it could show. Quality counts, bin counts, the mean and
- * the within-list checks still count every row.
+ * cost, and a slice's KS and PSI count lists, not rows (checks/slices.ts), so a sample of tens
+ * of thousands of values loses nothing they could show. Its bin counts are the sample's scaled
+ * to all finite values (countsOverBins); quality counts, the mean and the within-list checks
+ * still count every row.
  */
 export function numericProfile(
   column: Float64Array,
@@ -242,8 +242,6 @@ export function numericProfile(
   // Split so that 1e308 + 1e308 does not overflow (stats/safesum.ts; the pushdown SQL splits alike).
   const sum: SplitSum = { small: 0, largeScaled: 0 };
   const sampled = quality.finite > valueCap;
-  // Counted over every row, before a sample replaces the values (same counts as countsOverBins unsampled).
-  const binCounts = bins === undefined ? [] : sampled ? countsOverAllValues(bins, values, quality) : null;
   if (!sampled) {
     for (let i = 0; i < values.length; i++) {
       const v = values[i]!;
@@ -276,7 +274,8 @@ export function numericProfile(
   const profile: NumericProfile = {
     kind: feature.kind === 'binary' ? 'binary' : 'numeric',
     quality,
-    binCounts: binCounts ?? countsOverBins(bins!, sorted, quality),
+    // From the sorted values; a sample's counts are scaled up to all finite values (countsOverBins).
+    binCounts: bins === undefined ? [] : countsOverBins(bins, sorted, quality),
     sortedSample: sorted,
     distinct: distinctCountSorted(sorted),
     mean: quality.finite > 0 ? meanOfSplitSum(sum, quality.finite) : null,
@@ -285,13 +284,6 @@ export function numericProfile(
   if (association !== undefined) profile.association = association;
   if (perList !== undefined) profile.perList = perList;
   return profile;
-}
-
-/** Counts over the baseline's bins of every value of a column (NaN skipped), plus the missing bin. */
-function countsOverAllValues(bins: BinSpec, values: Float64Array, q: QualityCounts): number[] {
-  const counts = Array.from(binCounts(bins, values));
-  counts.push(q.nulls + q.nan + q.typeErrors);
-  return counts;
 }
 
 /**

@@ -235,7 +235,7 @@ describe('buildDayAndSliceProfiles', () => {
 });
 
 describe('a slice with more values than slices.valuesPerDay', () => {
-  it('sorts a sample by row holding the extremes, and counts everything else over every row', async () => {
+  it('sorts a sample by row holding the extremes, scales its bin counts, and counts everything else over every row', async () => {
     const c = parseConfig(
       {
         source: { table: 'impressions', columns: { score: 'model_score' } },
@@ -258,10 +258,13 @@ describe('a slice with more values than slices.valuesPerDay', () => {
       const s = sampled!.profile.features[f.name]!;
       const a = full.features[f.name]!;
       if (s.kind === 'categorical' || a.kind === 'categorical') throw new Error('numeric expected');
-      const { sortedSample, distinct, ...rest } = s;
-      const { sortedSample: all, distinct: allDistinct, ...allRest } = a;
-      // Counts, bins, mean, within-list checks and association: every row.
+      const { sortedSample, distinct, binCounts, ...rest } = s;
+      const { sortedSample: all, distinct: allDistinct, binCounts: allBins, ...allRest } = a;
+      // Quality counts, mean, within-list checks and association: every row.
       expect(rest).toEqual(allRest);
+      // Bin counts: the sample's, scaled to every finite value (the same total), each bin close.
+      expect(binCounts.reduce((x, y) => x + y, 0)).toBeCloseTo(allBins.reduce((x, y) => x + y, 0), 6);
+      binCounts.forEach((c, i) => expect(Math.abs(c - allBins[i]!) / rows.length, `bin ${i}`).toBeLessThan(0.03));
       // About valuesPerDay values (a binomial count), plus the smallest and largest.
       expect(sortedSample.length).toBeGreaterThan(800);
       expect(sortedSample.length).toBeLessThan(1250);
