@@ -168,8 +168,8 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
     expect(level(RUN_DATES[2]!, 'review_count', 'null_ratio')).toBe('critical');
   });
 
-  it('runs the per-list aggregation on the shards (EXPLAIN VERBOSE), asynchronously', async (ctx) => {
-    if (skipReason !== undefined) ctx.skip(skipReason);
+  /** A read-only REPEATABLE READ transaction on the coordinator, for EXPLAIN (rolled back). */
+  async function onCoordinator(fn: (client: pg.PoolClient) => Promise<void>): Promise<void> {
     const pool = new pg.Pool({ connectionString: coordUrl, max: 1 });
     // pool.end() resolves before its connection has closed; the coordinator database is dropped
     // WITH (FORCE) after the file, and a connection still closing then gets 57P01 on the pool.
@@ -177,6 +177,17 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
     const client = await pool.connect();
     try {
       await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+      await fn(client);
+      await client.query('ROLLBACK');
+    } finally {
+      client.release();
+      await pool.end();
+    }
+  }
+
+  it('runs the per-list aggregation on the shards (EXPLAIN VERBOSE), asynchronously', async (ctx) => {
+    if (skipReason !== undefined) ctx.skip(skipReason);
+    await onCoordinator(async (client) => {
       const plan = await planSource(client, shardedConfig);
       const q = buildPushdownQueries(shardedConfig, plan, RUN_DATES[0]!, { bins: null, fineBins: null });
       await preparePushdownSession(client);
@@ -192,22 +203,12 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       }
       expect(text).toMatch(/Async Foreign Scan/);
       expect(text).toMatch(/Relations: Aggregate on/);
-      await client.query('ROLLBACK');
-    } finally {
-      client.release();
-      await pool.end();
-    }
+    });
   });
 
   it('counts the values on the shards too: each feature aggregated per foreign partition remotely (EXPLAIN VERBOSE), asynchronously', async (ctx) => {
     if (skipReason !== undefined) ctx.skip(skipReason);
-    const pool = new pg.Pool({ connectionString: coordUrl, max: 1 });
-    // pool.end() resolves before its connection has closed; the coordinator database is dropped
-    // WITH (FORCE) after the file, and a connection still closing then gets 57P01 on the pool.
-    pool.on('error', () => undefined);
-    const client = await pool.connect();
-    try {
-      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+    await onCoordinator(async (client) => {
       const plan = await planSource(client, shardedConfig);
       const partitions = await foreignPartitionsOf(client, plan.relation);
       expect(partitions).toHaveLength(2);
@@ -224,20 +225,12 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       }
       expect(text.match(/Relations: Aggregate on/g), text).toHaveLength(2 * shardedConfig.features.length);
       expect(text).toMatch(/Async Foreign Scan/);
-      await client.query('ROLLBACK');
-    } finally {
-      client.release();
-      await pool.end();
-    }
+    });
   });
 
   it('filters the whole-list sample on the shards (EXPLAIN VERBOSE): the md5 condition is in the remote statements', async (ctx) => {
     if (skipReason !== undefined) ctx.skip(skipReason);
-    const pool = new pg.Pool({ connectionString: coordUrl, max: 1 });
-    pool.on('error', () => undefined);
-    const client = await pool.connect();
-    try {
-      await client.query('BEGIN ISOLATION LEVEL REPEATABLE READ READ ONLY');
+    await onCoordinator(async (client) => {
       const plan = await planSource(client, shardedConfig);
       const condition = listSampleCondition(plan.listIdExpression, 0.25);
       const sql = `SELECT ${plan.selectList.join(', ')} FROM ${plan.relation} WHERE ${plan.dateColumn} = DATE '${RUN_DATES[0]!}' AND ${condition}`;
@@ -254,10 +247,6 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       const share = Number(counts.rows[0]!.kept) / Number(counts.rows[0]!.all);
       expect(share).toBeGreaterThan(0.15);
       expect(share).toBeLessThan(0.35);
-      await client.query('ROLLBACK');
-    } finally {
-      client.release();
-      await pool.end();
-    }
+    });
   });
 });
