@@ -13,9 +13,9 @@
  * A baseline stored before per-day counts existed falls back to the pooled comparison.
  */
 import type { AboveThreshold } from '../config/index.ts';
-import { thinSorted, type FeatureVariation, type NumericProfile } from '../profile/index.ts';
+import type { FeatureVariation, NumericProfile } from '../profile/index.ts';
 import type { Finding } from '../report/index.ts';
-import { distinctCountSorted } from '../stats/index.ts';
+import { distinctCountSorted, thinSorted } from '../stats/index.ts';
 import { applied, pct, statusAbove } from './status.ts';
 
 type FindingDraft = Omit<Finding, 'alert'>;

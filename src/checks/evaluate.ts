@@ -7,7 +7,7 @@
  */
 import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
 import type { BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
-import type { BinEvidence, CheckName, Finding, Status } from '../report/index.ts';
+import type { CheckName, Finding } from '../report/index.ts';
 import {
   benjaminiHochberg,
   binCountsSorted,
@@ -18,23 +18,16 @@ import {
   ks2Sorted,
   ksPValue,
   psi,
-  psiNoiseFloor,
   type BinSpec,
-  type PsiResult,
 } from '../stats/index.ts';
 import { associationFindings, outcomeFindings, ownOutcome, type OutcomeInput } from './ranking.ts';
+import { psiFinding } from './psi-finding.ts';
 import { learnThreshold, type LearnedThreshold } from './adaptive.ts';
 import { distinctFinding } from './distinct.ts';
 import { extremeFinding } from './extremes.ts';
 import { applied, appliedBand, fmt, pct, statusAbove, statusBand } from './status.ts';
 
 export type FindingDraft = Omit<Finding, 'alert'>;
-
-/**
- * How many bins a finding keeps as evidence, those that moved most first: every bin of a
- * numeric feature (at most about 2 x baseline.bins), the top ones of a large categorical.
- */
-const TOP_BINS = 24;
 
 function ratio(numerator: number, denominator: number): number {
   return denominator > 0 ? numerator / denominator : 0;
@@ -61,48 +54,6 @@ function driftThreshold(ctx: Context, f: FeatureConfig, check: 'psi' | 'ks'): { 
 function withLearned(learned: LearnedThreshold | null, draft: FindingDraft): FindingDraft {
   if (learned === null || draft.thresholds.type !== 'above') return draft;
   return { ...draft, thresholds: { ...draft.thresholds, learned: true }, evidence: { ...draft.evidence, learnedThreshold: learned.evidence } };
-}
-
-function topBins(result: PsiResult, labels: readonly string[]): BinEvidence[] {
-  return result.contributions
-    .map((contribution, i) => ({ bin: labels[i] ?? `bin ${i}`, baselineShare: result.baselineShares[i]!, currentShare: result.currentShares[i]!, contribution }))
-    .filter((b) => b.baselineShare > 0 || b.currentShare > 0)
-    .sort((a, b) => Math.abs(b.contribution) - Math.abs(a.contribution))
-    .slice(0, TOP_BINS);
-}
-
-/**
- * A PSI finding: status by effect size (thresholds), but ok while PSI stays within its
- * no-drift noise floor, (1/n + 1/m) x the chi-square(B - 1) quantile over the B bins in use.
- */
-export function psiFinding(p: {
-  feature: string | null;
-  check: 'psi' | 'list_size_psi' | 'positive_position_psi';
-  result: PsiResult;
-  labels: readonly string[];
-  t: AboveThreshold;
-  n: number;
-  m: number;
-  quantile: number;
-  /** The summary, given the status and the noise floor. */
-  summary: (status: Status, floor: number) => string;
-  evidence?: Record<string, unknown>;
-}): FindingDraft {
-  const { result, t, n, m } = p;
-  const binsUsed = result.baselineShares.filter((b, i) => b > 0 || result.currentShares[i]! > 0).length;
-  const noiseFloor = binsUsed > 1 && n > 0 && m > 0 ? psiNoiseFloor(n, m, binsUsed, p.quantile) : 0;
-  const status: Status = result.psi <= noiseFloor ? 'ok' : statusAbove(result.psi, t);
-  return {
-    feature: p.feature,
-    check: p.check,
-    rule: null,
-    value: result.psi,
-    score: result.psi,
-    status,
-    thresholds: applied(t),
-    summary: p.summary(status, noiseFloor),
-    evidence: { ...p.evidence, n, m, noiseFloor, bins: topBins(result, p.labels), binsUsed },
-  };
 }
 
 /** A yes/no finding: critical when raised (value 1), ok otherwise (value 0). */

@@ -9,7 +9,7 @@ import type { AboveThreshold, Config, FeatureConfig } from '../config/index.ts';
 import type { AssociationCounts, BaselineProfile, DayProfile, OutcomeCounts, RankCorrelationSums } from '../profile/index.ts';
 import type { CheckName, Finding, Status } from '../report/index.ts';
 import { POSITION_BUCKET_LABELS, dailyMeanShift, psi, type MeanShift } from '../stats/index.ts';
-import { psiFinding } from './evaluate.ts';
+import { psiFinding } from './psi-finding.ts';
 import { applied, fmt, pct, statusAbove } from './status.ts';
 
 type FindingDraft = Omit<Finding, 'alert'>;

@@ -4,39 +4,10 @@
  * position and with the model score inside each list, and the outcome of the served order
  * from labels. Pure: typed arrays in, mergeable sums out.
  */
-import { NULL_POSITION, type AssociationCounts, type OutcomeCounts, type RankCorrelationSums } from './types.ts';
+import { NULL_POSITION, type AssociationCounts, type OutcomeCounts, type RankCorrelationSums, type ListGrouping, type RankArray, type ServedOrder } from './types.ts';
 import { POSITION_BUCKET_UPPER, RankScratch, averageRanksInto, ndcgAtK, positionBucket, reciprocalRank, rhoFromRanks } from '../stats/index.ts';
-import type { ListGrouping } from './day.ts';
 
 
-/**
- * Each list's rows with a position, sorted by position (entries e of list l are
- * start[l] .. start[l + 1]). Typed arrays on SharedArrayBuffers: worker threads read them
- * without a copy.
- */
-export interface ServedOrder {
-  start: Int32Array;
-  /** Row index per entry. */
-  rows: Int32Array;
-  /**
-   * Average rank of the position among the list's entries (ties share the mean rank). It
-   * rises with the position inside a list and is equal exactly where positions tie, so it
-   * stands in for the position wherever only order and ties count (no position is kept).
-   */
-  positionRank: RankArray;
-  /** Model score per entry (NaN when missing), or null without a score column. */
-  score: Float64Array | null;
-  /** Average rank of the score among the list's entries, valid when the whole list has a finite score. */
-  scoreRank: RankArray | null;
-  /** 1 when every entry of the list has a finite score. */
-  scoreComplete: Uint8Array | null;
-}
-
-/**
- * Average ranks inside a list are half-integers: exact in float32 below 2^23, so a day whose
- * lists are all shorter (any day under 2^23 rows) keeps them in half the memory.
- */
-type RankArray = Float32Array | Float64Array;
 const FLOAT32_EXACT_RANKS = 8388608;
 
 function shared<T extends Float64Array | Float32Array | Int32Array | Uint8Array>(ctor: { new (b: SharedArrayBuffer): T; BYTES_PER_ELEMENT: number }, n: number): T {

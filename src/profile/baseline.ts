@@ -4,22 +4,10 @@
  * Sunday, exactly as it would in one long column.
  */
 import type { Config } from '../config/index.ts';
-import { binEdgesFromSorted, boundCategories, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, type BinSpec, type QualityCounts } from '../stats/index.ts';
+import { binEdgesFromSorted, boundCategories, emptyQualityCounts, distinctCountSorted, mergeQualityCounts, thinSorted, type BinSpec, type QualityCounts } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
 import { windowVariation } from './variation.ts';
 import type { AssociationCounts, RankingDay, BaselineProfile, CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from './types.ts';
-
-/**
- * k evenly spaced order statistics of a sorted array (the values at ranks (i + 0.5) n / k):
- * a deterministic thinning that keeps the quantiles of the original.
- */
-export function thinSorted(sorted: Float64Array, k: number): Float64Array {
-  const n = sorted.length;
-  if (k >= n) return sorted;
-  const out = new Float64Array(k);
-  for (let i = 0; i < k; i++) out[i] = sorted[Math.floor(((i + 0.5) * n) / k)]!;
-  return out;
-}
 
 function addDataset(a: DatasetCounts, b: DatasetCounts): DatasetCounts {
   const sizes = a.listSizeCounts.length >= b.listSizeCounts.length ? [...a.listSizeCounts] : [...b.listSizeCounts];

@@ -4,8 +4,8 @@
  */
 import type { Config } from '../config/index.ts';
 import type { BinSpec } from '../stats/index.ts';
-import { SortScratch, numericProfile, type ListGrouping } from './day.ts';
-import type { NumericProfile } from './types.ts';
+import { SortScratch, numericProfile } from './day.ts';
+import type { ListGrouping, NumericProfile } from './types.ts';
 
 export interface ProfileJob {
   values: Float64Array;

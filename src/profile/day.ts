@@ -19,25 +19,11 @@ import {
   type QualityCounts,
   type SplitSum,
 } from '../stats/index.ts';
-import { featureAssociation, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
-import { LIST_BREAKS_RULE, LIST_FLAT, LIST_JUDGED, NULL_POSITION, type AssociationCounts, type PerListRecords, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts } from './types.ts';
+import { featureAssociation, outcomeCounts, servedOrder } from './association.ts';
+import { LIST_BREAKS_RULE, LIST_FLAT, LIST_JUDGED, NULL_POSITION, type AssociationCounts, type PerListRecords, type CategoricalProfile, type DatasetCounts, type DayColumns, type DayProfile, type FeatureProfile, type NumericProfile, type WithinListCounts, type ListGrouping } from './types.ts';
 
 /** Lists longer than this share the last list-size bin. */
 export const MAX_LIST_SIZE_BIN = 100;
-
-/** Rows grouped by list: rows of list l are order[start[l] .. start[l + 1]). */
-export interface ListGrouping {
-  start: Int32Array;
-  order: Int32Array;
-  /** Served order and score for the within-list association (set by buildDayProfile). */
-  ranking?: { served: ServedOrder; scoreFeature: string | null };
-  /**
-   * The within-list checks of numeric features (rules, flat lists, association): `record`
-   * computes them and keeps each list's outcome too (NumericProfile.perList); `skip` leaves
-   * them out, for a slice of whole lists that takes them from the day's records instead.
-   */
-  perList?: 'record' | 'skip';
-}
 
 /** Counting sort of row indexes by list index: O(rows + lists). Rows without a list are left out. */
 export function groupByList(listOf: Int32Array, lists: number): ListGrouping {

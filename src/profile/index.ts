@@ -1,10 +1,10 @@
-export type { SliceProfile, BaselineProfile, CategoricalColumn, CategoricalProfile, DatasetCounts, DayColumns, DayProfile, FeatureProfile, FeatureVariation, NumericProfile, WithinListCounts } from './types.ts';
+export type { SliceProfile, BaselineProfile, CategoricalColumn, CategoricalProfile, DatasetCounts, DayColumns, DayProfile, FeatureProfile, FeatureVariation, ListGrouping, NumericProfile, ServedOrder, WithinListCounts } from './types.ts';
 export { NULL_POSITION } from './types.ts';
-export { buildDayProfile, groupByList, countsOverBins, profileOnThisThread, MAX_LIST_SIZE_BIN, type ListGrouping, type NumericProfiler } from './day.ts';
+export { buildDayProfile, groupByList, countsOverBins, profileOnThisThread, MAX_LIST_SIZE_BIN, type NumericProfiler } from './day.ts';
 export { threadedProfiler, profilerPool, PARALLEL_MIN_ROWS, type ProfilerPool } from './threads.ts';
-export { mergeBaseline, capDayProfile, thinSorted, EMPTY_DATASET, FINE_BINS, refineBins, fineBinsFromSorted, withFineBins, type BaselineOptions } from './baseline.ts';
+export { mergeBaseline, capDayProfile, EMPTY_DATASET, FINE_BINS, refineBins, fineBinsFromSorted, withFineBins, type BaselineOptions } from './baseline.ts';
 export type { AssociationCounts, OutcomeCounts, RankCorrelationSums, RankingDay } from './types.ts';
-export { emptyCorrelationSums, featureAssociation, mergeCorrelationSums, mergeOutcomeCounts, outcomeCounts, servedOrder, type ServedOrder } from './association.ts';
+export { emptyCorrelationSums, featureAssociation, mergeCorrelationSums, mergeOutcomeCounts, outcomeCounts, servedOrder } from './association.ts';
 export { scoreFeatureIndex } from './day.ts';
 export { rankingDay } from './baseline.ts';
 export { DISTINCT_LADDER, distinctLadder } from './variation.ts';

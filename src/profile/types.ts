@@ -263,3 +263,45 @@ export interface DayColumns {
 /** The position of a row whose position is null. */
 export const NULL_POSITION = -2147483648;
 
+/** Rows grouped by list: rows of list l are order[start[l] .. start[l + 1]). */
+export interface ListGrouping {
+  start: Int32Array;
+  order: Int32Array;
+  /** Served order and score for the within-list association (set by buildDayProfile). */
+  ranking?: { served: ServedOrder; scoreFeature: string | null };
+  /**
+   * The within-list checks of numeric features (rules, flat lists, association): `record`
+   * computes them and keeps each list's outcome too (NumericProfile.perList); `skip` leaves
+   * them out, for a slice of whole lists that takes them from the day's records instead.
+   */
+  perList?: 'record' | 'skip';
+}
+
+/**
+ * Each list's rows with a position, sorted by position (entries e of list l are
+ * start[l] .. start[l + 1]). Typed arrays on SharedArrayBuffers: worker threads read them
+ * without a copy.
+ */
+export interface ServedOrder {
+  start: Int32Array;
+  /** Row index per entry. */
+  rows: Int32Array;
+  /**
+   * Average rank of the position among the list's entries (ties share the mean rank). It
+   * rises with the position inside a list and is equal exactly where positions tie, so it
+   * stands in for the position wherever only order and ties count (no position is kept).
+   */
+  positionRank: RankArray;
+  /** Model score per entry (NaN when missing), or null without a score column. */
+  score: Float64Array | null;
+  /** Average rank of the score among the list's entries, valid when the whole list has a finite score. */
+  scoreRank: RankArray | null;
+  /** 1 when every entry of the list has a finite score. */
+  scoreComplete: Uint8Array | null;
+}
+
+/**
+ * Average ranks inside a list are half-integers: exact in float32 below 2^23, so a day whose
+ * lists are all shorter (any day under 2^23 rows) keeps them in half the memory.
+ */
+export type RankArray = Float32Array | Float64Array;

@@ -27,9 +27,8 @@
  * with the pool does, which errs toward higher (quieter) thresholds.
  */
 import type { Config } from '../config/index.ts';
-import { NULL_CATEGORY, OTHER_CATEGORY, binCountsSorted, binEdgesFromSorted, categoryPsi, distinctCountSorted, psi, type BinSpec } from '../stats/index.ts';
+import { NULL_CATEGORY, OTHER_CATEGORY, binCountsSorted, binEdgesFromSorted, categoryPsi, distinctCountSorted, psi, thinSorted, type BinSpec } from '../stats/index.ts';
 import { countsOverBins } from './day.ts';
-import { thinSorted } from './baseline.ts';
 import type { CategoricalProfile, DayProfile, FeatureVariation, NumericProfile } from './types.ts';
 
 /** Sample sizes at which per-day distinct counts are kept (each day up to its sample's size). */

@@ -13,7 +13,7 @@ export type { KsMethod, KsResult } from './ks.ts';
 export { kolmogorovCdf, kolmogorovSurvival, kolmogorovSurvivalInverse } from './kolmogorov.ts';
 export { ks2ExactSurvival } from './ksexact.ts';
 export { benjaminiHochberg } from './bh.ts';
-export { halfSortScratchLength, radixSortInPlace, radixSortedCopy } from './sort.ts';
+export { halfSortScratchLength, radixSortInPlace, radixSortedCopy, thinSorted } from './sort.ts';
 export {
   MISSING_NULL,
   MISSING_PRESENT,

@@ -151,3 +151,16 @@ function sortHalvesAndMerge(values: Float64Array, scratch: Float64Array): Float6
   while (i < h) values[k++] = left[i++]!;
   return values;
 }
+
+/**
+ * k evenly spaced order statistics of a sorted array (the values at ranks (i + 0.5) n / k):
+ * a deterministic thinning that keeps the quantiles of the original. Returns `sorted` itself
+ * when k >= its length. O(k).
+ */
+export function thinSorted(sorted: Float64Array, k: number): Float64Array {
+  const n = sorted.length;
+  if (k >= n) return sorted;
+  const out = new Float64Array(k);
+  for (let i = 0; i < k; i++) out[i] = sorted[Math.floor(((i + 0.5) * n) / k)]!;
+  return out;
+}

@@ -4,8 +4,8 @@
  */
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../../src/config/index.ts';
-import { capDayProfile, mergeBaseline, thinSorted, type CategoricalProfile, type DayProfile, type NumericProfile } from '../../../src/profile/index.ts';
-import { binEdgesFromSorted } from '../../../src/stats/index.ts';
+import { capDayProfile, mergeBaseline, type CategoricalProfile, type DayProfile, type NumericProfile } from '../../../src/profile/index.ts';
+import { binEdgesFromSorted, thinSorted } from '../../../src/stats/index.ts';
 
 const config = parseConfig({
   source: { table: 'shop.results' },

@@ -4,9 +4,9 @@
  */
 import { describe, expect, it } from 'vitest';
 import { parseConfig } from '../../../src/config/index.ts';
-import { DISTINCT_LADDER, distinctLadder, mergeBaseline, thinSorted, type CategoricalProfile, type DayProfile, type NumericProfile } from '../../../src/profile/index.ts';
+import { DISTINCT_LADDER, distinctLadder, mergeBaseline, type CategoricalProfile, type DayProfile, type NumericProfile } from '../../../src/profile/index.ts';
 import { categoricalVariation } from '../../../src/profile/variation.ts';
-import { ks2Sorted, qualityCounts, radixSortedCopy } from '../../../src/stats/index.ts';
+import { ks2Sorted, qualityCounts, radixSortedCopy, thinSorted } from '../../../src/stats/index.ts';
 import { normalSample } from '../stats/prng.ts';
 
 function numericDay(values: Float64Array): NumericProfile {
