@@ -125,8 +125,7 @@ export function mergeCorrelationSums(a: RankCorrelationSums, b: RankCorrelationS
 class PairScratch {
   x = new Float64Array(64);
   y = new Float64Array(64);
-  rx = new Float64Array(64);
-  ry = new Float64Array(64);
+  /** The ordering buffers and the rank outputs (ranks.rx, ranks.ry). */
   ranks = new RankScratch();
   ensure(n: number): void {
     this.ranks.ensure(n);
@@ -134,8 +133,6 @@ class PairScratch {
     const len = Math.max(n, this.x.length * 2);
     this.x = new Float64Array(len);
     this.y = new Float64Array(len);
-    this.rx = new Float64Array(len);
-    this.ry = new Float64Array(len);
   }
 }
 
@@ -170,19 +167,19 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (m < 3) continue;
-    averageRanksInto(sp.x, m, sp.ranks, sp.rx);
+    averageRanksInto(sp.x, m, sp.ranks, sp.ranks.rx);
     let rhoPosition: number | null;
-    if (m === n) rhoPosition = rhoFromRanks(sp.rx, served.positionRank, n, e0);
+    if (m === n) rhoPosition = rhoFromRanks(sp.ranks.rx, served.positionRank, n, e0);
     else {
-      ranksOfSortedInto(sp.y, 0, m, sp.ry, 0);
-      rhoPosition = rhoFromRanks(sp.rx, sp.ry, m);
+      ranksOfSortedInto(sp.y, 0, m, sp.ranks.ry, 0);
+      rhoPosition = rhoFromRanks(sp.ranks.rx, sp.ranks.ry, m);
     }
     addRho(position, rhoPosition);
     if (recPosition !== undefined && rhoPosition !== null) recPosition[l] = rhoPosition;
     if (score === null) continue;
     const s = served.score!;
     if (m === n && served.scoreComplete![l] === 1) {
-      const rho = rhoFromRanks(sp.rx, served.scoreRank!, n, e0);
+      const rho = rhoFromRanks(sp.ranks.rx, served.scoreRank!, n, e0);
       addRho(score, rho);
       if (recScore !== undefined && rho !== null) recScore[l] = rho;
       continue;
@@ -198,9 +195,9 @@ export function featureAssociation(values: Float64Array, served: ServedOrder, wi
       }
     }
     if (q < 3) continue;
-    averageRanksInto(sp.x, q, sp.ranks, sp.rx);
-    averageRanksInto(sp.y, q, sp.ranks, sp.ry);
-    const rho = rhoFromRanks(sp.rx, sp.ry, q);
+    averageRanksInto(sp.x, q, sp.ranks, sp.ranks.rx);
+    averageRanksInto(sp.y, q, sp.ranks, sp.ranks.ry);
+    const rho = rhoFromRanks(sp.ranks.rx, sp.ranks.ry, q);
     addRho(score, rho);
     if (recScore !== undefined && rho !== null) recScore[l] = rho;
   }

@@ -124,8 +124,8 @@ function datasetCounts(cols: DayColumns, g: ListGrouping): DatasetCounts {
 }
 
 /** The values of a column at the given rows, in that order. */
-export function gatherValues(column: Float64Array, rows: Int32Array, shared = false): Float64Array {
-  const out = shared ? new Float64Array(new SharedArrayBuffer(rows.length * 8)) : new Float64Array(rows.length);
+export function gatherValues(column: Float64Array, rows: Int32Array): Float64Array {
+  const out = new Float64Array(rows.length);
   for (let k = 0; k < rows.length; k++) out[k] = column[rows[k]!]!;
   return out;
 }
@@ -155,8 +155,8 @@ export class SortScratch {
 }
 
 /**
- * The profile of one numeric feature: what a worker thread computes for its share of the
- * features. Consumes `column`: the within-list checks read it in row order, then its finite
+ * The profile of one numeric feature: what a profiling thread computes for each feature it
+ * takes (claim.ts). Consumes `column`: the within-list checks read it in row order, then its finite
  * values are moved to its front and sorted there, and that prefix is the profile's sorted
  * sample. A day so costs one copy of its columns in memory, not a column and its sorted copy.
  * With `parentRows` (a slice, DayColumns.parentRows) the values at those rows are gathered

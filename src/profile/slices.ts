@@ -235,7 +235,7 @@ export async function buildSliceProfiles(
  * For a slice's rows: per list of the day, 1 when the list lies wholly in the slice; null when
  * some list lies partly in it (a segment value that changes inside a list).
  */
-export function wholeListsOf(cols: DayColumns, rows: Int32Array, listSizes: Int32Array): Uint8Array | null {
+function wholeListsOf(cols: DayColumns, rows: Int32Array, listSizes: Int32Array): Uint8Array | null {
   const inSlice = new Int32Array(cols.lists);
   for (let k = 0; k < rows.length; k++) {
     const l = cols.listOf[rows[k]!]!;

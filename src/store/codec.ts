@@ -10,6 +10,7 @@
  *   pairs, so a category named `__proto__` or `constructor` is a key like any other. No
  *   JSON library in the project does this, hence the few lines here.
  */
+import { endianness } from 'node:os';
 import { StoreError } from '../errors.ts';
 
 /** Packs values as little-endian float64. */
@@ -49,8 +50,7 @@ function typedArrayName(value: ArrayBufferView): TypedArrayName | null {
   return null;
 }
 
-/** 1 is 0x3FF00000_00000000: on a little-endian platform its high word comes second. */
-const LITTLE_ENDIAN = new Uint32Array(Float64Array.of(1).buffer)[1] === 0x3ff00000;
+const LITTLE_ENDIAN = endianness() === 'LE';
 
 function typedToBase64(name: TypedArrayName, value: ArrayBufferView & ArrayLike<number>): string {
   // A little-endian platform holds the values in the stored byte order already: no copy.

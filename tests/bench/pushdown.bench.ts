@@ -20,6 +20,7 @@ import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import pg from 'pg';
 import { startShards, type Shards } from '../support/shards.ts';
+import { featureExprs, featureNames } from './day-shapes.ts';
 
 const LIST_SIZE = 50;
 const BASELINE = [
@@ -28,30 +29,12 @@ const BASELINE = [
 ];
 const DAY = { date: '2026-02-04', rows: 1_000_000 };
 
-function featureNames(n: number): string[] {
-  return Array.from({ length: n }, (_, i) => `f${String(i).padStart(2, '0')}`);
-}
-
-/** Mixed shapes: normal, uniform, heavy-tailed counts with many zeros, per-list min-max. */
-function featureExpr(i: number, shift: number): string {
-  switch (i % 4) {
-    case 0:
-      return `(sqrt(-2 * ln(1 - random())) * cos(2 * pi() * random()) + ${shift})`;
-    case 1:
-      return 'random()';
-    case 2:
-      return 'floor(-ln(1 - random()) * 3) * (random() < 0.6)::int';
-    default:
-      return `((g.i % ${LIST_SIZE})::float8 / ${LIST_SIZE - 1})`;
-  }
-}
-
 async function createTable(client: pg.Client, table: string, features: number): Promise<void> {
   await client.query(`CREATE TABLE ${table} (snapshot_date date NOT NULL, list_id text, item_id text, position int, ${featureNames(features).map((c) => `${c} double precision`).join(', ')})`);
 }
 
 async function addDay(client: pg.Client, table: string, features: number, date: string, rows: number, shift: number): Promise<void> {
-  const exprs = featureNames(features).map((_, i) => featureExpr(i, shift));
+  const exprs = featureExprs(features, LIST_SIZE, shift);
   await client.query(
     `INSERT INTO ${table} SELECT $1::date, 'q' || $1::text || '-' || (g.i / ${LIST_SIZE}), 'item' || g.i, (g.i % ${LIST_SIZE}) + 1, ${exprs.join(', ')}
        FROM generate_series(0, $2::int - 1) AS g(i)`,

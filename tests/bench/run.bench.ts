@@ -14,6 +14,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import pg from 'pg';
+import { featureExprs, featureNames } from './day-shapes.ts';
 
 const FEATURES = 50;
 const LIST_SIZE = 50;
@@ -27,25 +28,11 @@ const BASELINE = [
   { date: '2026-01-07', rows: 250_000 },
 ];
 
-function featureColumns(): string[] {
-  return Array.from({ length: FEATURES }, (_, i) => `f${String(i).padStart(2, '0')}`);
-}
+const featureColumns = (): string[] => featureNames(FEATURES);
 
 async function createDay(client: pg.Client, table: string, date: string, rows: number, shift: number): Promise<void> {
   const lists = rows / LIST_SIZE;
-  // Mixed shapes: normal, uniform, heavy-tailed counts with many zeros, per-list min-max.
-  const exprs = featureColumns().map((_, i) => {
-    switch (i % 4) {
-      case 0:
-        return `(sqrt(-2 * ln(1 - random())) * cos(2 * pi() * random()) + ${shift})`;
-      case 1:
-        return `random()`;
-      case 2:
-        return `floor(-ln(1 - random()) * 3) * (random() < 0.6)::int`;
-      default:
-        return `((g.i % ${LIST_SIZE})::float8 / ${LIST_SIZE - 1})`;
-    }
-  });
+  const exprs = featureExprs(FEATURES, LIST_SIZE, shift);
   await client.query(
     `INSERT INTO ${table} SELECT $1::date, 'q' || (g.i / ${LIST_SIZE}), 'item' || g.i, (g.i % ${LIST_SIZE}) + 1, ${exprs.join(', ')}
        FROM generate_series(0, $2::int - 1) AS g(i)`,

@@ -17,6 +17,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import pg from 'pg';
+import { featureExprs, featureNames } from './day-shapes.ts';
 
 const FEATURES = 50;
 const LIST_SIZE = 50;
@@ -25,21 +26,10 @@ const DAY = '2026-02-04';
 /** Markets by list index modulo 50: 40 %, 30 %, 20 %, 6 %, 4 % of the lists. */
 const MARKET = `(CASE WHEN (g.i / ${LIST_SIZE}) % 50 < 20 THEN 'north' WHEN (g.i / ${LIST_SIZE}) % 50 < 35 THEN 'south' WHEN (g.i / ${LIST_SIZE}) % 50 < 45 THEN 'east' WHEN (g.i / ${LIST_SIZE}) % 50 < 48 THEN 'isle' ELSE 'reef' END)`;
 
-const featureColumns = (): string[] => Array.from({ length: FEATURES }, (_, i) => `f${String(i).padStart(2, '0')}`);
+const featureColumns = (): string[] => featureNames(FEATURES);
 
 async function createDay(client: pg.Client, table: string, date: string, rows: number): Promise<void> {
-  const exprs = featureColumns().map((_, i) => {
-    switch (i % 4) {
-      case 0:
-        return `(sqrt(-2 * ln(1 - random())) * cos(2 * pi() * random()))`;
-      case 1:
-        return `random()`;
-      case 2:
-        return `floor(-ln(1 - random()) * 3) * (random() < 0.6)::int`;
-      default:
-        return `((g.i % ${LIST_SIZE})::float8 / ${LIST_SIZE - 1})`;
-    }
-  });
+  const exprs = featureExprs(FEATURES, LIST_SIZE);
   await client.query(
     `INSERT INTO ${table} SELECT $1::date, 'q' || (g.i / ${LIST_SIZE}), 'item' || g.i, (g.i % ${LIST_SIZE}) + 1, ${MARKET}, ${exprs.join(', ')}
        FROM generate_series(0, $2::int - 1) AS g(i)`,

@@ -33,6 +33,7 @@ import { withFineBins } from '../../src/profile/index.ts';
 import { widthBucketThresholds } from '../../src/source/index.ts';
 import { Store } from '../../src/store/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
+import { featureExprs, featureNames } from './day-shapes.ts';
 
 const FEATURES = 50;
 const LIST_SIZE = 50;
@@ -46,21 +47,7 @@ const SMALL = { date: '2026-03-04', rows: 1_000 };
 const DAY = { date: '2026-03-05', rows: 1_000_000 };
 const ROOT = new URL('../../', import.meta.url).pathname;
 
-const names = (): string[] => Array.from({ length: FEATURES }, (_, i) => `f${String(i).padStart(2, '0')}`);
-
-/** Mixed shapes: normal, uniform, heavy-tailed counts with many zeros, per-list min-max. */
-function featureExpr(i: number, shift: number): string {
-  switch (i % 4) {
-    case 0:
-      return `(sqrt(-2 * ln(1 - random())) * cos(2 * pi() * random()) + ${shift})`;
-    case 1:
-      return 'random()';
-    case 2:
-      return 'floor(-ln(1 - random()) * 3) * (random() < 0.6)::int';
-    default:
-      return `((g.i % ${LIST_SIZE})::float8 / ${LIST_SIZE - 1})`;
-  }
-}
+const names = (): string[] => featureNames(FEATURES);
 
 async function createTable(c: pg.Client, table: string): Promise<void> {
   await c.query(`CREATE TABLE ${table} (snapshot_date date NOT NULL, list_id text, item_id text, position int, ${names().map((n) => `${n} double precision`).join(', ')})`);
@@ -68,7 +55,7 @@ async function createTable(c: pg.Client, table: string): Promise<void> {
 
 async function addDay(c: pg.Client, table: string, date: string, rows: number, shift: number): Promise<void> {
   await c.query(
-    `INSERT INTO ${table} SELECT $1::date, 'q' || $1::text || '-' || (g.i / ${LIST_SIZE}), 'item' || g.i, (g.i % ${LIST_SIZE}) + 1, ${names().map((_, i) => featureExpr(i, shift)).join(', ')}
+    `INSERT INTO ${table} SELECT $1::date, 'q' || $1::text || '-' || (g.i / ${LIST_SIZE}), 'item' || g.i, (g.i % ${LIST_SIZE}) + 1, ${featureExprs(FEATURES, LIST_SIZE, shift).join(', ')}
        FROM generate_series(0, $2::int - 1) AS g(i)`,
     [date, rows],
   );
