@@ -120,6 +120,26 @@ describe('the packed and installed package', () => {
       expect(report.findings.length).toBeGreaterThan(0);
     }, 180_000);
 
+    it('plumbline run profiles slices with the compiled worker: a top-k slice and segment slices of whole lists over the thread threshold', () => {
+      // slices.valuesPerDay 1000: each region (about 70,000 rows) sorts a sample, and takes its
+      // within-list checks from the day's lists; top10 (about 42,000 rows) is profiled in full.
+      const slicedConfig = join(dir, 'plumbline-slices.yaml');
+      writeFileSync(slicedConfig, JSON.stringify({ ...day.config, slices: { topK: [10], segments: [{ column: 'region', maxValues: 5, minRows: 1000 }], valuesPerDay: 1000 } }));
+      const r = run(['run', '--config', slicedConfig, '--date', day.bigDate, '--format', 'json'], { PLUMBLINE_SOURCE_URL: url! });
+      expect(r.status, r.stderr).toBe(0);
+      const report = JSON.parse(r.stdout) as { slices?: { slice: string; rows: number; lists: number }[]; findings: { slice?: string; feature: string | null; check: string; evidence: Record<string, unknown> }[] };
+      const bigLists = day.bigRows / 50;
+      expect(report.slices?.map((s) => s.slice).sort()).toEqual(['segment:region=coast', 'segment:region=hills', 'segment:region=plain', 'top10']);
+      expect(report.slices?.find((s) => s.slice === 'top10')).toMatchObject({ rows: bigLists * 10, lists: bigLists });
+      const regions = report.slices!.filter((s) => s.slice.startsWith('segment:'));
+      expect(regions.reduce((n, s) => n + s.rows, 0)).toBe(day.bigRows);
+      // Every slice is checked feature by feature, within-list checks included.
+      for (const s of report.slices!) {
+        const checks = new Set(report.findings.filter((f) => f.slice === s.slice && f.feature === 'relevance_hint').map((f) => f.check));
+        expect([...checks], s.slice).toEqual(expect.arrayContaining(['psi', 'ks', 'flat_list_ratio']));
+      }
+    }, 180_000);
+
     it('plumbline serve stops on SIGTERM within seconds and releases its port', async () => {
       const port = await freePort();
       const serveConfig = join(dir, 'serve.yaml');

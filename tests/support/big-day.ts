@@ -37,12 +37,13 @@ export async function createBigDay(url: string, prefix: string): Promise<BigDay>
   try {
     await client.query(`CREATE SCHEMA ${sourceSchema}`);
     await client.query(`CREATE TABLE ${sourceSchema}.ranked_items (
-      snapshot_date date NOT NULL, list_id bigint, item_id bigint, position int,
+      snapshot_date date NOT NULL, list_id bigint, item_id bigint, position int, region text,
       relevance_hint double precision, freshness_days double precision, seller_rating double precision)`);
     // Seven baseline days of 200 lists, then the big day: values are smooth functions of
-    // the row number, so every feature varies inside lists and between days alike.
+    // the row number, so every feature varies inside lists and between days alike. The region
+    // is a list-level column for configs with segment slices.
     const insert = `INSERT INTO ${sourceSchema}.ranked_items
-      SELECT $1::date, l, l * 1000 + p, p,
+      SELECT $1::date, l, l * 1000 + p, p, (ARRAY['coast', 'hills', 'plain'])[1 + l % 3],
              ((l * 7 + p * 13) % 97) / 97.0, ((l + p * 3) % 31)::double precision, 1 + ((l * p) % 40) / 10.0
       FROM generate_series(1, $2::int) AS l, generate_series(1, ${LIST_SIZE}) AS p`;
     for (let d = 1; d <= 7; d++) await client.query(insert, [`2026-03-0${d}`, 200]);
