@@ -8,4 +8,4 @@ export { emptyCorrelationSums, featureAssociation, mergeCorrelationSums, mergeOu
 export { scoreFeatureIndex } from './day.ts';
 export { rankingDay } from './baseline.ts';
 export { DISTINCT_LADDER, distinctLadder } from './variation.ts';
-export { WHOLE_DAY, SEGMENT_LABEL_MAX, buildDayAndSliceProfiles, buildSliceProfiles, compareTally, hasSlices, planSlices, planSlicesOfColumns, segmentLabel, sliceRows, subsetColumns, tallySegment, type SegmentTally, type SliceDef } from './slices.ts';
+export { WHOLE_DAY, SEGMENT_LABEL_MAX, buildDayAndSliceProfiles, compareTally, hasSlices, planSlices, planSlicesOfColumns, segmentLabel, sliceColumns, sliceRows, subsetColumns, tallySegment, type SegmentTally, type SliceDef } from './slices.ts';

@@ -200,35 +200,17 @@ export function subsetColumns(cols: DayColumns, rows: Int32Array): DayColumns {
   };
 }
 
-/** A slice's columns as its profile wants them: its rows, and its cap on sorted values. */
-function sliceColumns(cols: DayColumns, rows: Int32Array, config: Config): DayColumns {
+/**
+ * A slice's columns as its profile wants them: its rows (subsetColumns) and its cap on sorted
+ * values. buildDayProfile of these is the slice's profile in full.
+ */
+export function sliceColumns(cols: DayColumns, rows: Int32Array, config: Config): DayColumns {
   return { ...subsetColumns(cols, rows), valueCap: config.slices.valuesPerDay };
 }
 
 /** The slices of a day read into columns (stream engine, and the pushdown engine's sample). */
 export function planSlicesOfColumns(config: Config, cols: DayColumns): SliceDef[] {
   return planSlices(config, (cols.segments ?? []).map(tallySegment));
-}
-
-/**
- * Profiles each slice of a day's columns with the same profiler as the whole day. Call it
- * before buildDayProfile of the whole day, which consumes the columns. `binsOf` gives the
- * baseline bins of a slice (null: none yet).
- */
-export async function buildSliceProfiles(
-  cols: DayColumns,
-  config: Config,
-  defs: readonly SliceDef[],
-  binsOf: (slice: string) => Record<string, BinSpec> | null,
-  profiler: NumericProfiler = profileOnThisThread,
-): Promise<SliceProfile[]> {
-  const out: SliceProfile[] = [];
-  // One slice at a time: its copy of the columns is released (profiled) before the next is made.
-  for (const def of defs) {
-    const sub = sliceColumns(cols, sliceRows(cols, def), config);
-    out.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sub, config, binsOf(def.name), profiler) });
-  }
-  return out;
 }
 
 /**

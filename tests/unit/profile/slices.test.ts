@@ -5,9 +5,16 @@
  */
 import { describe, expect, it } from 'vitest';
 import { parseConfig, type Config } from '../../../src/config/index.ts';
-import { buildDayAndSliceProfiles, buildDayProfile, buildSliceProfiles, planSlices, planSlicesOfColumns, segmentLabel, sliceRows, subsetColumns, tallySegment, type SliceDef } from '../../../src/profile/index.ts';
+import { buildDayAndSliceProfiles, buildDayProfile, planSlices, planSlicesOfColumns, segmentLabel, sliceColumns, sliceRows, subsetColumns, tallySegment, type SliceDef, type SliceProfile } from '../../../src/profile/index.ts';
 import { NULL_POSITION, type DayColumns } from '../../../src/source/index.ts';
-import { MISSING_NULL, binEdgesFromSorted, ks2Sorted, radixSortedCopy } from '../../../src/stats/index.ts';
+import { MISSING_NULL, binEdgesFromSorted, ks2Sorted, radixSortedCopy, type BinSpec } from '../../../src/stats/index.ts';
+
+/** Each slice profiled in full, on its own rows, without the day's shortcuts. */
+async function fullSliceProfiles(cols: DayColumns, c: Config, defs: readonly SliceDef[], binsOf: (slice: string) => Record<string, BinSpec> | null): Promise<SliceProfile[]> {
+  const out: SliceProfile[] = [];
+  for (const def of defs) out.push({ slice: def.name, kind: def.kind, profile: await buildDayProfile(sliceColumns(cols, sliceRows(cols, def), c), c, binsOf(def.name)) });
+  return out;
+}
 
 function config(slices: Config['slices'] | Record<string, unknown>): Config {
   return parseConfig(
@@ -140,7 +147,7 @@ describe('slice profiles', () => {
   it('profiles a slice exactly as a day made of its rows alone', async () => {
     const cols = day();
     const defs = planSlicesOfColumns(c, cols);
-    const slices = await buildSliceProfiles(cols, c, defs, () => null);
+    const slices = await fullSliceProfiles(cols, c, defs, () => null);
     const expected = [[0, 1, 2, 3, 4, 6, 7], [0, 2, 3, 5, 7, 8, 10], [1, 4, 6, 9, 11]];
     for (const [i, s] of slices.entries()) {
       expect(s.slice).toBe(defs[i]!.name);
@@ -219,7 +226,7 @@ describe('buildDayAndSliceProfiles', () => {
     const defs = planSlicesOfColumns(c, randomDay(400, mixed));
     expect(defs.map((d) => d.kind)).toEqual(['top', 'segment', 'segment', 'segment']);
     const both = await buildDayAndSliceProfiles(randomDay(400, mixed), c, null, defs, () => null);
-    const slices = await buildSliceProfiles(randomDay(400, mixed), c, defs, () => null);
+    const slices = await fullSliceProfiles(randomDay(400, mixed), c, defs, () => null);
     expect(both.slices).toEqual(slices);
     expect(both.profile).toEqual(await buildDayProfile(randomDay(400, mixed), c, null));
     // The per-list records served the slices and are gone from the day's profile.
@@ -252,7 +259,7 @@ describe('a slice with more values than slices.valuesPerDay', () => {
     const bins = Object.fromEntries(
       c.features.map((f, fi) => [f.name, binEdgesFromSorted(radixSortedCopy(Float64Array.from(rows, (r) => cols.numeric[fi]![r]!)).filter(Number.isFinite), 10)]),
     );
-    const [sampled] = await buildSliceProfiles(cols, c, [def], () => bins);
+    const [sampled] = await fullSliceProfiles(cols, c, [def], () => bins);
     const full = await buildDayProfile(subsetColumns(randomDay(3000, false), rows), c, bins);
     for (const f of c.features) {
       const s = sampled!.profile.features[f.name]!;
