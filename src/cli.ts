@@ -113,12 +113,14 @@ export async function main(argv: string[]): Promise<number> {
     case 'check-config': {
       const path = configPath(values, rest);
       const config = loadConfigFile(path);
+      let notes: string[] = [];
       if (values.connect === true) {
         // The same catalogue checks a run starts with, every problem listed (exit 2 when any).
         const rt = openRuntime(config, log);
         try {
-          const problems = await checkSource(rt.source, config);
+          const { problems, notes: found } = await checkSource(rt.source, config);
           if (problems.length > 0) throw new ConfigError(`the source does not match ${path} (${problems.length} problem${problems.length === 1 ? '' : 's'})`, problems);
+          notes = found;
         } finally {
           await rt.close();
         }
@@ -133,6 +135,7 @@ export async function main(argv: string[]): Promise<number> {
         `# memory at the cap: about ${Math.ceil(mem.bytes / 2 ** 20)} MiB (${config.source.engine} engine, ${mem.rows} rows x ${mem.features} features; README "Sizing")\n`,
       );
       if (values.connect === true) process.stdout.write('# source: table, columns, types and jsonb keys match the config\n');
+      for (const note of notes) process.stdout.write(`# note: ${note}\n`);
       return EXIT.ok;
     }
     case 'migrate':

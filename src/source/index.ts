@@ -14,6 +14,7 @@ export {
   type PushdownSpecs,
   type PushdownTimings,
   foreignPartitionsOf,
+  serversWithJit,
   type ValueCoding,
 } from './pushdown.ts';
 export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';

@@ -18,7 +18,9 @@
  *
  *   PLUMBLINE_BENCH_DATABASE_URL=postgres://postgres@127.0.0.1:5432/test npx tsx tests/bench/targets.bench.ts
  *
- * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_SHARDS=0 skips part 3 (it
+ * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_SHARD_JIT=1 leaves JIT to the
+ * shards' default in part 3 (by default the foreign servers carry options '-c jit=off', as README
+ * recommends). PLUMBLINE_BENCH_SHARDS=0 skips part 3 (it
  * starts two servers and copies the rows into them); PLUMBLINE_BENCH_PARTS=1 (or 1,2) runs
  * only the parts named. Creates and drops its own schemas, database and servers.
  */
@@ -272,7 +274,9 @@ export async function main(): Promise<void> {
         await sc.connect();
         await createTable(sc, 'public.day_rows');
         await sc.end();
-        await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '5000', fetch_size '50000')`);
+        // JIT off in the remote sessions, as README recommends (check-config --connect notes a server without it).
+        const jit = process.env['PLUMBLINE_BENCH_SHARD_JIT'] === '1' ? '' : `, options '-c jit=off'`;
+        await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '5000', fetch_size '50000'${jit})`);
         await coord.query(`CREATE USER MAPPING FOR CURRENT_USER SERVER shard${i} OPTIONS (user 'postgres')`);
         await coord.query(`CREATE FOREIGN TABLE src.day_rows_p${i} PARTITION OF src.day_rows FOR VALUES WITH (MODULUS 2, REMAINDER ${i}) SERVER shard${i} OPTIONS (schema_name 'public', table_name 'day_rows')`);
       }

@@ -14,6 +14,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { addDays, type ScenarioOptions } from '../../demo-data/scenario.ts';
 import { createTableSql, loadScenario } from '../../demo-data/load.ts';
 import type { Config } from '../../src/config/index.ts';
+import { createPool } from '../../src/db/index.ts';
+import { checkSource } from '../../src/run/index.ts';
 import type { Report } from '../../src/report/index.ts';
 import { buildPushdownQueries, foreignPartitionsOf, listSampleCondition, planSource, preparePushdownSession } from '../../src/source/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
@@ -116,7 +118,9 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       await shard.connect();
       await shard.query(createTableSql('public.impressions', 'wide'));
       await shard.end();
-      await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '1000', fetch_size '10000')`);
+      // The first shard's remote sessions run without JIT, as README recommends; the second keeps the shard's default (check-config notes it).
+      const jit = i === 0 ? `, options '-c jit=off'` : '';
+      await coord.query(`CREATE SERVER shard${i} FOREIGN DATA WRAPPER postgres_fdw OPTIONS (host '127.0.0.1', port '${s.port}', dbname 'postgres', async_capable 'true', batch_size '1000', fetch_size '10000'${jit})`);
       await coord.query(`CREATE USER MAPPING FOR CURRENT_USER SERVER shard${i} OPTIONS (user 'postgres')`);
       await coord.query(`CREATE FOREIGN TABLE src.sharded_p${i} PARTITION OF src.sharded FOR VALUES WITH (MODULUS 2, REMAINDER ${i}) SERVER shard${i} OPTIONS (schema_name 'public', table_name 'impressions')`);
     }
@@ -226,6 +230,21 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
       expect(text.match(/Relations: Aggregate on/g), text).toHaveLength(2 * shardedConfig.features.length);
       expect(text).toMatch(/Async Foreign Scan/);
     });
+  });
+
+  it('notes, at check-config --connect, the shard servers whose remote sessions keep JIT on', async (ctx) => {
+    if (skipReason !== undefined) ctx.skip(skipReason);
+    const pool = createPool({ url: coordUrl, applicationName: 'plumbline-test', statementTimeoutMs: 10_000, connectionTimeoutMs: 5000, max: 1, onError: () => {} });
+    try {
+      const { problems, notes } = await checkSource(pool, shardedConfig);
+      expect(problems).toEqual([]);
+      expect(notes).toHaveLength(1);
+      expect(notes[0]).toMatch(/^foreign server shard1: .*ALTER SERVER shard1 OPTIONS \(ADD options '-c jit=off'\)/);
+      // The stream engine runs no statement on the shards: nothing to note.
+      expect((await checkSource(pool, { ...shardedConfig, source: { ...shardedConfig.source, engine: 'stream' } })).notes).toEqual([]);
+    } finally {
+      await pool.end();
+    }
   });
 
   it('filters the whole-list sample on the shards (EXPLAIN VERBOSE): the md5 condition is in the remote statements', async (ctx) => {
