@@ -13,10 +13,9 @@ export {
   type PushdownQueries,
   type PushdownSpecs,
   type PushdownTimings,
-  foreignPartitionsOf,
-  serversWithJit,
   type ValueCoding,
 } from './pushdown.ts';
 export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';
 export type { RowFilter } from './pushdown.ts';
 export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';
+export { foreignPartitionsOf, serversWithJit } from './partitions.ts';

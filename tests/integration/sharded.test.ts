@@ -17,7 +17,7 @@ import type { Config } from '../../src/config/index.ts';
 import { createPool } from '../../src/db/index.ts';
 import { checkSource } from '../../src/run/index.ts';
 import type { Report } from '../../src/report/index.ts';
-import { buildPushdownQueries, foreignPartitionsOf, listSampleCondition, planSource, preparePushdownSession } from '../../src/source/index.ts';
+import { buildPushdownQueries, countDays, firstSnapshotDate, foreignPartitionsOf, listSampleCondition, planSource, preparePushdownSession } from '../../src/source/index.ts';
 import { startShards, type Shards } from '../support/shards.ts';
 import { testDatabaseUrl, uniqueSchema } from '../support/pg.ts';
 import { runDays } from '../support/run-days.ts';
@@ -156,6 +156,20 @@ describe.skipIf(url === undefined)('pushdown engine on a table sharded over two 
     const res = await coord!.query<{ p: string; n: string }>(`SELECT tableoid::regclass::text AS p, count(*)::text AS n FROM src.sharded GROUP BY 1 ORDER BY 1`);
     expect(res.rows.map((r) => r.p)).toEqual(['src.sharded_p0', 'src.sharded_p1']);
     for (const r of res.rows) expect(Number(r.n)).toBeGreaterThan(1000);
+  });
+
+  it('counts the rows per date and finds the first date per shard, as on one table', async (ctx) => {
+    if (skipReason !== undefined) ctx.skip(skipReason);
+    await onCoordinator(async (client) => {
+      const plan = await planSource(client, shardedConfig);
+      const singlePlan = await planSource(client, { ...shardedConfig, source: { ...shardedConfig.source, table: 'src.single' } });
+      const dates = [...RUN_DATES, '1999-01-01'];
+      const counts = await countDays(client, plan, dates);
+      expect(counts).toEqual(await countDays(client, singlePlan, dates));
+      expect([...counts.values()].every((n) => n > 0)).toBe(true);
+      expect(counts.has('1999-01-01')).toBe(false);
+      expect(await firstSnapshotDate(client, plan)).toBe(await firstSnapshotDate(client, singlePlan));
+    });
   });
 
   it('gives the same report as one table with the same rows', (ctx) => {
