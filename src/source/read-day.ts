@@ -276,9 +276,10 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
   const sampled = totalRows > options.maxRows;
   const fraction = sampled ? options.maxRows / totalRows : 1;
   // A small sample (the pushdown engine's) is counted in the COPY itself, count(*) OVER () in
-  // every row, which the server computes over the sample it has just filtered: one pass of
-  // the list-id hash over the day instead of two (1M rows, the sample read 2.63 -> 1.72-1.77 s). A big one (the stream
-  // engine over source.maxRowsPerDay) is counted first, so the server need not hold it.
+  // every row, which the server computes over the sample it has just filtered: one pass of the
+  // list-id hash over the day instead of two (1M rows: the sample read 2.63 -> 1.72-1.77 s). A
+  // big one (the stream engine over source.maxRowsPerDay) is counted first, so that the server
+  // need not hold it.
   const countInCopy = sampled && options.maxRows <= (options.inlineCountMaxRows ?? INLINE_COUNT_MAX_ROWS);
   let rows = totalRows;
   if (sampled && !countInCopy) {
