@@ -7,7 +7,7 @@
 import type { Config } from '../config/index.ts';
 import { sqlState, withReadOnlyTransaction, type Pool, type PoolClient } from '../db/index.ts';
 import { ConfigError, SourceError } from '../errors.ts';
-import { foreignPartitionsOf, planSource, serversWithJit, sourceProblems } from '../source/index.ts';
+import { planSource, serversWithJit, sourceProblems } from '../source/index.ts';
 
 export interface SourceCheck {
   /** Problems with their config paths (empty when the source matches). */
@@ -32,10 +32,9 @@ export async function checkSource(source: Pool, config: Config): Promise<SourceC
 
 async function sourceNotes(client: PoolClient, config: Config): Promise<string[]> {
   if (config.source.engine !== 'pushdown') return [];
-  const plan = await planSource(client, config);
-  const partitions = await foreignPartitionsOf(client, plan.relation);
-  if (partitions === null) return [];
-  return (await serversWithJit(client, partitions)).map(
+  const { foreignPartitions } = await planSource(client, config);
+  if (foreignPartitions === null) return [];
+  return (await serversWithJit(client, foreignPartitions)).map(
     (server) =>
       `foreign server ${server}: its options do not turn JIT off for the remote sessions, which the per-feature statements on each shard pay for; unless the shard has jit = off itself, ALTER SERVER ${server} OPTIONS (ADD options '-c jit=off') (README "How the SQL maps onto deployments")`,
   );

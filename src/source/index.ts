@@ -18,4 +18,4 @@ export {
 export { sliceFilter, tallySegmentsSql, planBaselineRelation, countDaysBetween } from './slice-sql.ts';
 export type { RowFilter } from './pushdown.ts';
 export { associationFeatures, buildRankingQuery, readRankingAggregates, withRankingAggregates, type RankingAggregates, type RankingPassOptions } from './ranking-pass.ts';
-export { foreignPartitionsOf, serversWithJit } from './partitions.ts';
+export { serversWithJit } from './partitions.ts';

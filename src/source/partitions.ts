@@ -11,6 +11,7 @@ import type { PoolClient } from '../db/index.ts';
  * The leaf partitions of `relation` (a quoted name) when it is a partitioned table and every
  * leaf is a foreign table; null otherwise (a plain table, a view, or local partitions, which
  * PostgreSQL aggregates in one scan well enough). Names come quoted from regclass output.
+ * planSource looks it up once (SourcePlan.foreignPartitions) for every statement of a run.
  */
 export async function foreignPartitionsOf(client: PoolClient, relation: string): Promise<string[] | null> {
   const res = await client.query<{ name: string; relkind: string }>(

@@ -6,6 +6,7 @@
 import { featureSource, type Config, type FeatureConfig } from '../config/index.ts';
 import { describeRelation, quoteIdent, quoteQualified, type PoolClient, type RelationInfo } from '../db/index.ts';
 import { ConfigError, SourceError } from '../errors.ts';
+import { foreignPartitionsOf } from './partitions.ts';
 
 /** How a selected column arrives in binary COPY and how to decode it. */
 export type Decoder = 'text' | 'int4' | 'float8' | 'jsontext';
@@ -29,6 +30,17 @@ export interface SourcePlan {
   features: FeaturePlan[];
   /** Segment columns of config.slices.segments, read as text after the features (in that order). */
   segments: { column: string; expression: string }[];
+  /**
+   * The leaf partitions, quoted, when `relation` is a partitioned table whose leaves are all
+   * postgres_fdw foreign tables (shards); null otherwise. Statements that group by something
+   * other than the partition key are written once per partition (see partitions.ts).
+   */
+  foreignPartitions: readonly string[] | null;
+}
+
+/** The relations a per-partition statement reads: each foreign partition, or the source itself. */
+export function relationsOf(plan: Pick<SourcePlan, 'relation' | 'foreignPartitions'>): readonly string[] {
+  return plan.foreignPartitions ?? [plan.relation];
 }
 
 const NUMERIC_TYPES = new Set(['double precision', 'real', 'numeric', 'integer', 'bigint', 'smallint', 'boolean']);
@@ -140,6 +152,7 @@ export async function planSource(client: PoolClient, config: Config): Promise<So
     hasLabel: cols.label !== undefined,
     features,
     segments,
+    foreignPartitions: await foreignPartitionsOf(client, relation),
   };
 }
 

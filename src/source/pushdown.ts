@@ -40,7 +40,6 @@ import { quoteIdent, type PoolClient } from '../db/index.ts';
 import { DataError } from '../errors.ts';
 import type { CategoricalProfile, DatasetCounts, DayProfile, FeatureProfile, NumericProfile, WithinListCounts } from '../profile/index.ts';
 import { LARGE_MAGNITUDE, LARGE_SCALE_EXP, boundCategories, emptyQualityCounts, meanOfSplitSum, type BinSpec, type QualityCounts, type SplitSum } from '../stats/index.ts';
-import { foreignPartitionsOf } from './partitions.ts';
 import type { SourcePlan } from './plan.ts';
 
 /** Bin specs the value pass counts into: the baseline's PSI bins and its fine KS bins. */
@@ -54,12 +53,6 @@ export interface PushdownSpecs {
    * pass counts the finite values strictly below `lower` and strictly above `upper`.
    */
   extremeBounds?: Record<string, ExtremeLimits> | null;
-  /**
-   * The leaf partitions of the source when it is a partitioned table whose partitions are all
-   * foreign tables (postgres_fdw shards), as quoted names: the value pass then aggregates each
-   * partition on its own server (see buildPushdownQueries). Set by readDayAggregates.
-   */
-  foreignPartitions?: readonly string[] | null;
 }
 
 export interface ExtremeLimits {
@@ -395,7 +388,7 @@ export function buildPushdownQueries(config: Config, plan: SourcePlan, date: str
     // Sums, minima and maxima are taken per code, so only the finite codes' ones are used.
     values.push(v);
   });
-  const partitions = specs.foreignPartitions ?? [];
+  const partitions = plan.foreignPartitions ?? [];
   if (partitions.length > 0) {
     // Sums split as stats/safesum.ts splits them: 1e308 + 1e308 must not overflow (SQLSTATE 22003).
     const largeAt = vp.add(LARGE_MAGNITUDE, 'float8');
@@ -484,7 +477,7 @@ export interface PushdownTimings {
  * REPEATABLE READ transaction (both statements then see the same snapshot).
  */
 export async function readDayAggregates(client: PoolClient, config: Config, plan: SourcePlan, date: string, specs: PushdownSpecs, filter?: RowFilter, timings?: PushdownTimings): Promise<DayAggregates> {
-  const q = buildPushdownQueries(config, plan, date, { ...specs, foreignPartitions: specs.foreignPartitions ?? (await foreignPartitionsOf(client, plan.relation)) }, filter);
+  const q = buildPushdownQueries(config, plan, date, specs, filter);
   await preparePushdownSession(client);
   const t0 = performance.now();
 

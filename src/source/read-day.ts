@@ -10,8 +10,7 @@ import { NULL_POSITION, type DayColumns } from '../profile/index.ts';
 import { DataError } from '../errors.ts';
 import { MISSING_NULL, MISSING_TYPE_ERROR, truncateCategory } from '../stats/index.ts';
 import { CopyBinaryParser, type TupleSink } from './copy-binary.ts';
-import { foreignPartitionsOf } from './partitions.ts';
-import type { SourcePlan } from './plan.ts';
+import { relationsOf, type SourcePlan } from './plan.ts';
 
 /** Row-level missing codes, as stats/quality counts them. */
 const NULL_VALUE = MISSING_NULL;
@@ -350,8 +349,7 @@ export async function readDay(client: PoolClient, plan: SourcePlan, date: string
 export async function countDays(client: PoolClient, plan: SourcePlan, dates: readonly string[]): Promise<Map<string, number>> {
   const result = new Map<string, number>();
   if (dates.length === 0) return result;
-  const relations = (await foreignPartitionsOf(client, plan.relation)) ?? [plan.relation];
-  const perRelation = relations.map((rel) => `SELECT ${plan.dateColumn} AS d, count(*) AS n FROM ${rel} WHERE ${plan.dateColumn} = ANY($1::date[]) GROUP BY 1`);
+  const perRelation = relationsOf(plan).map((rel) => `SELECT ${plan.dateColumn} AS d, count(*) AS n FROM ${rel} WHERE ${plan.dateColumn} = ANY($1::date[]) GROUP BY 1`);
   const res = await client.query<{ d: string; rows: string }>(
     `SELECT d::text AS d, sum(n)::text AS rows FROM (${perRelation.join(' UNION ALL ')}) AS per_relation GROUP BY 1`,
     [dates],
@@ -366,8 +364,7 @@ export async function countDays(client: PoolClient, plan: SourcePlan, dates: rea
  * shard, a fetch of up to fetch_size rows each).
  */
 export async function firstSnapshotDate(client: PoolClient, plan: SourcePlan): Promise<string | null> {
-  const relations = (await foreignPartitionsOf(client, plan.relation)) ?? [plan.relation];
-  const perRelation = relations.map((rel) => `SELECT min(${plan.dateColumn}) AS d FROM ${rel}`);
+  const perRelation = relationsOf(plan).map((rel) => `SELECT min(${plan.dateColumn}) AS d FROM ${rel}`);
   const res = await client.query<{ d: string | null }>(`SELECT min(d)::text AS d FROM (${perRelation.join(' UNION ALL ')}) AS per_relation`);
   return res.rows[0]?.d ?? null;
 }
