@@ -20,7 +20,8 @@
  *
  *   PLUMBLINE_BENCH_DATABASE_URL=postgres://postgres@127.0.0.1:5432/test npx tsx tests/bench/targets.bench.ts
  *
- * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_SHARD_JIT=1 leaves JIT to the
+ * (falls back to PLUMBLINE_TEST_DATABASE_URL). PLUMBLINE_BENCH_KEEP=1 keeps the generated tables
+ * and configs for profiling a run by hand. PLUMBLINE_BENCH_SHARD_JIT=1 leaves JIT to the
  * shards' default in part 3 (by default the foreign servers carry options '-c jit=off', as README
  * recommends). PLUMBLINE_BENCH_SHARDS=0 skips part 3 (it
  * starts two servers and copies the rows into them); PLUMBLINE_BENCH_PARTS=1 (or 1,2) runs
@@ -28,7 +29,7 @@
  */
 import { execFileSync, spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
-import { tmpdir } from 'node:os';
+import { cpus, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import pg from 'pg';
@@ -80,6 +81,9 @@ function writeConfig(dir: string, name: string, table: string, engine: 'stream' 
 interface Measured {
   seconds: number;
   maxRssMiB: number;
+  /** CPU seconds of the run's own process (user + system, /usr/bin/time), and of the whole machine while it ran (os.cpus(): the database backend included). */
+  processCpu: number;
+  machineCpu: number;
   /** Phases from the run's debug log, seconds. */
   phases: Record<string, number>;
 }
@@ -88,8 +92,10 @@ interface Measured {
 function cliRun(configPath: string, date: string, sourceUrl: string, storeUrl: string): Measured {
   const env = { ...process.env, PLUMBLINE_SOURCE_URL: sourceUrl, PLUMBLINE_STORE_URL: storeUrl, PLUMBLINE_LOG_LEVEL: 'debug' };
   const t0 = process.hrtime.bigint();
-  const r = spawnSync('/usr/bin/time', ['-f', 'maxrss_kib=%M', process.execPath, join(ROOT, 'dist/cli.js'), 'run', '--config', configPath, '--date', date, '--format', 'json'], { env, encoding: 'utf8', maxBuffer: 64 << 20 });
+  const c0 = machineBusySeconds();
+  const r = spawnSync('/usr/bin/time', ['-f', 'maxrss_kib=%M cpu_s=%U+%S', process.execPath, join(ROOT, 'dist/cli.js'), 'run', '--config', configPath, '--date', date, '--format', 'json'], { env, encoding: 'utf8', maxBuffer: 64 << 20 });
   const seconds = Number(process.hrtime.bigint() - t0) / 1e9;
+  const machineCpu = machineBusySeconds() - c0;
   if (r.status !== 0) throw new Error(`plumbline run failed (${r.status}): ${r.stderr.slice(-2000)}`);
   const rss = /maxrss_kib=(\d+)/.exec(r.stderr);
   const phases: Record<string, number> = {};
@@ -115,13 +121,21 @@ function cliRun(configPath: string, date: string, sourceUrl: string, storeUrl: s
   }
   // Start-up (node, modules, config, pools, catalogue checks, migrations check) and the rest: what the phases leave.
   phases['start-up and the rest'] = seconds - Object.values(phases).reduce((s, x) => s + x, 0);
-  return { seconds, maxRssMiB: rss === null ? Number.NaN : Number(rss[1]) / 1024, phases };
+  const cpu = /cpu_s=([\d.]+)\+([\d.]+)/.exec(r.stderr);
+  return { seconds, maxRssMiB: rss === null ? Number.NaN : Number(rss[1]) / 1024, processCpu: cpu === null ? Number.NaN : Number(cpu[1]) + Number(cpu[2]), machineCpu, phases };
 }
 
-function psqlSeconds(url: string, sql: string): number {
+/** CPU seconds all cores have spent busy since boot (user, nice, system, irq), from os.cpus(). */
+function machineBusySeconds(): number {
+  return cpus().reduce((s, c) => s + c.times.user + c.times.nice + c.times.sys + c.times.irq, 0) / 1000;
+}
+
+function psqlSeconds(url: string, sql: string, machineCpu?: number[]): number {
   const t0 = process.hrtime.bigint();
+  const c0 = machineBusySeconds();
   // On stdin: the reference statement (thousands of bin thresholds) is too long for a command line.
   execFileSync('psql', [url, '-X', '-q', '-v', 'ON_ERROR_STOP=1', '-f', '-'], { input: sql, stdio: ['pipe', 'ignore', 'inherit'], maxBuffer: 64 << 20 });
+  machineCpu?.push(machineBusySeconds() - c0);
   return Number(process.hrtime.bigint() - t0) / 1e9;
 }
 
@@ -217,8 +231,9 @@ export async function main(): Promise<void> {
       // is what each byte of a day costs; the rest, whatever the day's size, is the fixed overhead.
       const mids: Measured[] = [];
       const MID = BASELINE[BASELINE.length - 1]!;
+      const floorCpu: number[] = [];
       for (let i = 0; i < REPS; i++) {
-        floors.push(psqlSeconds(url, copyFloorSql(table, DAY.date)));
+        floors.push(psqlSeconds(url, copyFloorSql(table, DAY.date), floorCpu));
         streams.push(cliRun(streamConfig, DAY.date, url, url));
         mids.push(cliRun(streamConfig, MID.date, url, url));
       }
@@ -235,6 +250,12 @@ export async function main(): Promise<void> {
       console.log(`   RATIO peak RSS per MiB of feature columns as float64, ${MID.rows.toLocaleString('en-US')} -> ${DAY.rows.toLocaleString('en-US')} rows (${midColumnMiB.toFixed(0)} -> ${columnMiB.toFixed(0)} MiB of columns; peak ${range(mids.map((m) => m.maxRssMiB), 0)} -> ${range(streams.map((r) => r.maxRssMiB), 0)} MiB): ${range(slopes)} (target <= 1.2); the fixed overhead, what the line leaves at zero rows: ${range(intercepts, 0)} MiB`);
       console.log(`   (peak RSS - ${fixedMiB.toFixed(0)} MiB, the peak of the same command on a ${SMALL.rows.toLocaleString('en-US')}-row day, which starts no worker thread) / feature columns: ${range(rssRatios)}`);
       printSplit('stream', streams);
+      // Where the CPU goes: on a machine this small the run is bound by CPU, not by waiting. The
+      // machine's busy CPU seconds over its cores is the shortest the run could take were every
+      // part of it perfectly overlapped; against the floor, that is the least ratio this amount of work allows.
+      const cores = cpus().length;
+      console.log(`  CPU seconds (median of ${streams.length}): the run's process ${median(streams.map((r) => r.processCpu)).toFixed(2)}; the whole machine during the run ${median(streams.map((r) => r.machineCpu)).toFixed(2)} of ${(cores * median(streams.map((r) => r.seconds))).toFixed(2)} (${cores} cores x wall), during the COPY floor ${median(floorCpu).toFixed(2)}`);
+      console.log(`  the least ratio the run's CPU work allows on ${cores} cores (machine busy CPU s / ${cores} / floor, perfect overlap): ${range(streams.map((r, i) => r.machineCpu / cores / floors[i]!))}`);
     }
     if (!parts.includes('2') && !parts.includes('3')) return;
 
@@ -327,9 +348,14 @@ export async function main(): Promise<void> {
     }
   } finally {
     await shards?.stop();
-    await client.query([src, ...stores].map((s) => `DROP SCHEMA IF EXISTS ${s} CASCADE`).join('; '));
+    if (process.env['PLUMBLINE_BENCH_KEEP'] === '1') {
+      // For profiling one run by hand (DEVELOPERS.md): the tables and configs stay.
+      console.log(`targets.bench: kept schemas ${[src, ...stores].join(', ')} and the configs in ${dir} (PLUMBLINE_BENCH_KEEP=1); drop them by hand`);
+    } else {
+      await client.query([src, ...stores].map((s) => `DROP SCHEMA IF EXISTS ${s} CASCADE`).join('; '));
+      rmSync(dir, { recursive: true, force: true });
+    }
     await client.end();
-    rmSync(dir, { recursive: true, force: true });
   }
 }
 
