@@ -130,13 +130,13 @@ function machineBusySeconds(): number {
   return cpus().reduce((s, c) => s + c.times.user + c.times.nice + c.times.sys + c.times.irq, 0) / 1000;
 }
 
-function psqlSeconds(url: string, sql: string, machineCpu?: number[]): number {
+/** `sql` through psql: wall seconds, and the whole machine's busy CPU seconds meanwhile (the backend's, mostly). */
+function psqlRun(url: string, sql: string): { seconds: number; machineCpu: number } {
   const t0 = process.hrtime.bigint();
   const c0 = machineBusySeconds();
   // On stdin: the reference statement (thousands of bin thresholds) is too long for a command line.
   execFileSync('psql', [url, '-X', '-q', '-v', 'ON_ERROR_STOP=1', '-f', '-'], { input: sql, stdio: ['pipe', 'ignore', 'inherit'], maxBuffer: 64 << 20 });
-  machineCpu?.push(machineBusySeconds() - c0);
-  return Number(process.hrtime.bigint() - t0) / 1e9;
+  return { seconds: Number(process.hrtime.bigint() - t0) / 1e9, machineCpu: machineBusySeconds() - c0 };
 }
 
 function copyFloorSql(table: string, date: string): string {
@@ -233,7 +233,9 @@ export async function main(): Promise<void> {
       const MID = BASELINE[BASELINE.length - 1]!;
       const floorCpu: number[] = [];
       for (let i = 0; i < REPS; i++) {
-        floors.push(psqlSeconds(url, copyFloorSql(table, DAY.date), floorCpu));
+        const floor = psqlRun(url, copyFloorSql(table, DAY.date));
+        floors.push(floor.seconds);
+        floorCpu.push(floor.machineCpu);
         streams.push(cliRun(streamConfig, DAY.date, url, url));
         mids.push(cliRun(streamConfig, MID.date, url, url));
       }
@@ -267,7 +269,7 @@ export async function main(): Promise<void> {
       const refs: number[] = [];
       const pushes: Measured[] = [];
       for (let i = 0; i < REPS; i++) {
-        refs.push(psqlSeconds(url, refSql));
+        refs.push(psqlRun(url, refSql).seconds);
         pushes.push(cliRun(pushConfig, DAY.date, url, url));
       }
       console.log('');
